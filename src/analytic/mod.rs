@@ -1,0 +1,1 @@
+//! analytic (being written).

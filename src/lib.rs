@@ -1,0 +1,13 @@
+//! dampfront: moisture (and later heat) transport in drying bodies, with spreadsheet workbooks
+//! in and out.
+//!
+//! Dependencies point one way:
+//! `physics` (pure property functions) ← `case` (the problem as checked data) ← `solver`
+//! (finite volumes and time stepping). `analytic` stands alone; tests and `verify` compare the
+//! solver with it. `workbook` (files ↔ case and results) and `watch` (folders) sit at the edges.
+#![deny(missing_docs)]
+#![warn(clippy::unwrap_used)]
+
+pub mod analytic;
+pub mod physics;
+pub mod watch;
