@@ -9,5 +9,7 @@
 #![warn(clippy::unwrap_used)]
 
 pub mod analytic;
+pub mod case;
 pub mod physics;
+pub mod solver;
 pub mod watch;

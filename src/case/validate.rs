@@ -1,0 +1,389 @@
+//! Semantic checks of a [`Case`]: ranges, consistency between sheets, and what the physics needs.
+
+use std::fmt;
+
+use super::{Case, Coupling, Exchange, Exposed, Geometry, Humidity};
+use crate::physics::Isotherm;
+
+/// Where in the case a problem lies, in the vocabulary of the case workbook.
+///
+/// Row indices count from 0 over the case's lists; the workbook layer maps them to cells.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Place {
+    /// A whole sheet (e.g. an empty list).
+    Sheet(&'static str),
+    /// A key of the `case` sheet.
+    Case(&'static str),
+    /// A column of a layer row.
+    Layer {
+        /// Row in the case's layer list.
+        index: usize,
+        /// Column name.
+        column: &'static str,
+    },
+    /// A column of a material row.
+    Material {
+        /// Row in the case's material list.
+        index: usize,
+        /// Column name.
+        column: &'static str,
+    },
+    /// A column of a schedule row.
+    Step {
+        /// Row in the case's schedule.
+        index: usize,
+        /// Column name.
+        column: &'static str,
+    },
+}
+
+impl fmt::Display for Place {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Place::Sheet(s) => write!(f, "{s}"),
+            Place::Case(k) => write!(f, "case.{k}"),
+            Place::Layer { index, column } => write!(f, "layers row {} {column}", index + 1),
+            Place::Material { index, column } => {
+                write!(f, "materials row {} {column}", index + 1)
+            }
+            Place::Step { index, column } => write!(f, "schedule row {} {column}", index + 1),
+        }
+    }
+}
+
+/// One thing wrong with a case.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Problem {
+    /// Where it is.
+    pub place: Place,
+    /// What is wrong, as a sentence.
+    pub message: String,
+}
+
+impl fmt::Display for Problem {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}: {}", self.place, self.message)
+    }
+}
+
+/// The most cells a case may ask for: beyond this a 1-D run gains nothing and memory grows.
+pub const MAX_TOTAL_CELLS: usize = 100_000;
+
+struct Checker {
+    problems: Vec<Problem>,
+}
+
+impl Checker {
+    fn push(&mut self, place: Place, message: impl Into<String>) {
+        self.problems.push(Problem {
+            place,
+            message: message.into(),
+        });
+    }
+
+    /// Requires `value` finite and > 0.
+    fn positive(&mut self, place: Place, what: &str, value: f64) {
+        if !value.is_finite() || value <= 0.0 {
+            self.push(place, format!("{what} must be a number > 0, found {value}"));
+        }
+    }
+
+    /// Requires `value` finite and >= 0.
+    fn non_negative(&mut self, place: Place, what: &str, value: f64) {
+        if !value.is_finite() || value < 0.0 {
+            self.push(
+                place,
+                format!("{what} must be a number >= 0, found {value}"),
+            );
+        }
+    }
+
+    fn finite(&mut self, place: Place, what: &str, value: f64) {
+        if !value.is_finite() {
+            self.push(
+                place,
+                format!("{what} must be a finite number, found {value}"),
+            );
+        }
+    }
+}
+
+pub(super) fn validate(case: &Case) -> Vec<Problem> {
+    let mut c = Checker {
+        problems: Vec::new(),
+    };
+    check_settings(case, &mut c);
+    check_materials(case, &mut c);
+    check_layers(case, &mut c);
+    check_schedule(case, &mut c);
+    c.problems
+}
+
+fn check_settings(case: &Case, c: &mut Checker) {
+    if case.cells_per_layer < 4 {
+        c.push(
+            Place::Case("cells_per_layer"),
+            format!(
+                "cells_per_layer must be an integer >= 4, found {}",
+                case.cells_per_layer
+            ),
+        );
+    }
+    let total = case.cells_per_layer.saturating_mul(case.layers.len());
+    if total > MAX_TOTAL_CELLS {
+        c.push(
+            Place::Case("cells_per_layer"),
+            format!("{total} cells in all is more than the limit of {MAX_TOTAL_CELLS}"),
+        );
+    }
+    c.positive(Place::Case("end_hours"), "end_hours", case.end_time);
+    if let Some(x) = case.target_moisture {
+        c.non_negative(Place::Case("target_moisture_pct"), "target_moisture_pct", x);
+    }
+    if let Some(dt) = case.output_every {
+        c.positive(Place::Case("output_every_min"), "output_every_min", dt);
+        if dt.is_finite() && dt > 0.0 && case.end_time / dt > 1e6 {
+            c.push(
+                Place::Case("output_every_min"),
+                "output_every_min asks for more than a million rows; choose a larger spacing",
+            );
+        }
+    }
+    if let Some(times) = &case.profile_times {
+        if times.len() > 1000 {
+            c.push(
+                Place::Case("profile_hours"),
+                "profile_hours lists more than 1000 times",
+            );
+        }
+        for &t in times {
+            c.non_negative(Place::Case("profile_hours"), "every profile time", t);
+        }
+    }
+    c.positive(
+        Place::Case("flow_length_mm"),
+        "flow_length_mm",
+        case.flow_length,
+    );
+    if !(case.tolerance.is_finite() && case.tolerance > 0.0 && case.tolerance < 0.1) {
+        c.push(
+            Place::Case("tolerance"),
+            format!(
+                "tolerance must be a number between 0 and 0.1, found {}",
+                case.tolerance
+            ),
+        );
+    }
+    let curved = matches!(case.geometry, Geometry::Cylinder | Geometry::Sphere);
+    if curved && matches!(case.exposed, Exposed::B | Exposed::Both) {
+        c.push(
+            Place::Case("exposed"),
+            "a cylinder or sphere has one surface: exposed must be a or none",
+        );
+    }
+    if case.coupling == Coupling::HeatAndMoisture {
+        c.push(
+            Place::Case("coupling"),
+            "coupled heat and moisture is not available in this version; use coupling = moisture \
+             (isothermal at the air temperature)",
+        );
+    }
+}
+
+fn check_materials(case: &Case, c: &mut Checker) {
+    if case.materials.is_empty() {
+        c.push(Place::Sheet("materials"), "no material is defined");
+    }
+    for (i, m) in case.materials.iter().enumerate() {
+        let at = |column| Place::Material { index: i, column };
+        c.positive(at("dry_density_kg_m3"), "dry_density_kg_m3", m.dry_density);
+        let d = &m.diffusivity;
+        c.positive(at("d_ref_m2_s"), "d_ref_m2_s", d.d_ref);
+        if d.t_ref_c.is_finite() && d.t_ref_c <= -273.15 {
+            c.push(
+                at("d_ref_temp_c"),
+                "d_ref_temp_c must be above absolute zero",
+            );
+        }
+        c.finite(at("d_ref_temp_c"), "d_ref_temp_c", d.t_ref_c);
+        c.non_negative(at("d_ref_moisture_pct"), "d_ref_moisture_pct", d.x_ref);
+        c.non_negative(
+            at("activation_energy_kj_mol"),
+            "activation_energy_kj_mol",
+            d.activation_energy_j_mol,
+        );
+        c.finite(at("moisture_coef"), "moisture_coef", d.moisture_coef);
+        if d.moisture_coef.abs() > 100.0 {
+            c.push(
+                at("moisture_coef"),
+                "moisture_coef beyond +-100 per unit moisture makes D vary by more than e^100; \
+                 check the units (per dry-basis fraction)",
+            );
+        }
+        for msg in m.isotherm.validate() {
+            c.push(at("isotherm"), msg);
+        }
+        if let Some(k) = m.conductivity {
+            c.positive(at("conductivity_w_mk"), "conductivity_w_mk", k);
+        }
+        if let Some(cp) = m.specific_heat {
+            c.positive(at("specific_heat_j_kgk"), "specific_heat_j_kgk", cp);
+        }
+    }
+}
+
+fn check_layers(case: &Case, c: &mut Checker) {
+    if case.layers.is_empty() {
+        c.push(Place::Sheet("layers"), "no layer is defined");
+    }
+    for (i, l) in case.layers.iter().enumerate() {
+        let at = |column| Place::Layer { index: i, column };
+        if l.material >= case.materials.len() {
+            c.push(
+                at("material"),
+                "the material is not defined on sheet materials",
+            );
+        }
+        c.positive(at("thickness_mm"), "thickness_mm", l.thickness);
+        c.non_negative(
+            at("initial_moisture_pct"),
+            "initial_moisture_pct",
+            l.initial_moisture,
+        );
+        if !(l.initial_temp_c.is_finite() && l.initial_temp_c > -273.15) {
+            c.push(
+                at("initial_temp_c"),
+                format!(
+                    "initial_temp_c must be a temperature above absolute zero, found {}",
+                    l.initial_temp_c
+                ),
+            );
+        }
+    }
+}
+
+fn check_schedule(case: &Case, c: &mut Checker) {
+    if case.schedule.is_empty() {
+        c.push(Place::Sheet("schedule"), "the schedule has no step");
+    }
+    let exposed = case.exposed != Exposed::None;
+    let surface_isotherms: Vec<Isotherm> = case
+        .exposed_materials()
+        .iter()
+        .map(|m| m.isotherm)
+        .collect();
+    let has_isotherm =
+        !surface_isotherms.is_empty() && surface_isotherms.iter().all(|iso| *iso != Isotherm::None);
+    let last = case.schedule.len().saturating_sub(1);
+    for (i, s) in case.schedule.iter().enumerate() {
+        let at = |column| Place::Step { index: i, column };
+        if !(s.dry_bulb_c.is_finite() && (-60.0..=350.0).contains(&s.dry_bulb_c)) {
+            c.push(
+                at("dry_bulb_c"),
+                format!(
+                    "dry_bulb_c must be a temperature between -60 and 350 C, found {}",
+                    s.dry_bulb_c
+                ),
+            );
+        }
+        if let Some(d) = s.duration {
+            c.positive(at("hours"), "hours", d);
+        }
+        if let Some(x) = s.until_moisture {
+            c.non_negative(at("until_moisture_pct"), "until_moisture_pct", x);
+        }
+        if i != last && s.duration.is_none() && s.until_moisture.is_none() {
+            c.push(
+                at("hours"),
+                "a step before the last needs hours or until_moisture_pct (or both) to end",
+            );
+        }
+        if s.ramp {
+            if i == 0 {
+                c.push(
+                    at("ramp"),
+                    "the first step has no previous step to ramp from",
+                );
+            }
+            if s.duration.is_none() {
+                c.push(at("ramp"), "a ramped step needs hours (the ramp's length)");
+            }
+        }
+        match s.humidity {
+            Humidity::Relative(rh) => {
+                if !(rh.is_finite() && (0.0..=1.0).contains(&rh)) {
+                    c.push(
+                        at("rh_pct"),
+                        format!("rh_pct must be between 0 and 100, found {}", rh * 100.0),
+                    );
+                }
+            }
+            Humidity::WetBulb(tw) => {
+                if !tw.is_finite() || tw > s.dry_bulb_c + 1e-9 {
+                    c.push(
+                        at("wet_bulb_c"),
+                        format!("wet_bulb_c must be at or below the dry bulb, found {tw}"),
+                    );
+                }
+            }
+            Humidity::Unspecified => {}
+        }
+        if let Some(x) = s.equilibrium_moisture {
+            c.non_negative(
+                at("equilibrium_moisture_pct"),
+                "equilibrium_moisture_pct",
+                x,
+            );
+        }
+        if !exposed {
+            continue;
+        }
+        let humid = s.humidity != Humidity::Unspecified;
+        match s.exchange {
+            Exchange::Unspecified => c.push(
+                at("surface_coef_m_s"),
+                "the step states no surface exchange: give one of surface_moisture_pct, \
+                 surface_coef_m_s, hm_m_s, air_velocity_m_s",
+            ),
+            Exchange::FixedSurface(x) => {
+                c.non_negative(at("surface_moisture_pct"), "surface_moisture_pct", x)
+            }
+            Exchange::SurfaceCoefficient(beta) => {
+                c.positive(at("surface_coef_m_s"), "surface_coef_m_s", beta);
+                if s.equilibrium_moisture.is_none() {
+                    if !has_isotherm {
+                        c.push(
+                            at("equilibrium_moisture_pct"),
+                            "the surface material has isotherm none: this step must fix the \
+                             surface or give equilibrium_moisture_pct",
+                        );
+                    } else if !humid {
+                        c.push(
+                            at("rh_pct"),
+                            "give rh_pct or wet_bulb_c (or equilibrium_moisture_pct) for the \
+                             surface's equilibrium moisture",
+                        );
+                    }
+                }
+            }
+            Exchange::AirSide(v) | Exchange::AirVelocity(v) => {
+                let column = if matches!(s.exchange, Exchange::AirSide(_)) {
+                    "hm_m_s"
+                } else {
+                    "air_velocity_m_s"
+                };
+                c.positive(at(column), column, v);
+                if !has_isotherm {
+                    c.push(
+                        at(column),
+                        "air-side exchange needs the surface's water activity: the surface \
+                         material needs an isotherm (not none)",
+                    );
+                }
+                if !humid {
+                    c.push(at("rh_pct"), "air-side exchange needs rh_pct or wet_bulb_c");
+                }
+            }
+        }
+    }
+}

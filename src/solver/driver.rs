@@ -1,0 +1,428 @@
+//! The run loop: walks the schedule, lands on output and profile times, records curves,
+//! profiles and the summary figures. It only drives a [`Stepper`]; `verify`, batches and fits
+//! use the same stepper through this loop.
+
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::Instant;
+
+use super::SolveError;
+use super::problem::Problem;
+use super::stepper::{Stats, Stepper, StopReason};
+
+/// One output row. Moistures are dry-basis fractions; temperatures in degrees C.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CurveRow {
+    /// Time, s.
+    pub time: f64,
+    /// Dry-mass weighted mean moisture.
+    pub mean: f64,
+    /// Moisture at the exposed surface (face A, or B when only B is exposed).
+    pub surface: f64,
+    /// Moisture at the centre.
+    pub centre: f64,
+    /// (mean - X_eq) / (X_0 - X_eq) with the current step's equilibrium, where known.
+    pub moisture_ratio: Option<f64>,
+    /// Mean product temperature.
+    pub mean_temp_c: f64,
+    /// Surface temperature.
+    pub surface_temp_c: f64,
+    /// Centre temperature.
+    pub centre_temp_c: f64,
+    /// Drying rate -d(mean)/dt, fraction per s (positive while drying).
+    pub drying_rate: f64,
+    /// Air temperature.
+    pub air_temp_c: f64,
+    /// Air relative humidity, fraction, where known.
+    pub air_rh: Option<f64>,
+    /// Schedule step index in force.
+    pub step: usize,
+    /// Mean moisture of each layer.
+    pub layer_means: Vec<f64>,
+}
+
+/// A whole moisture profile at one time.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Profile {
+    /// Time, s.
+    pub time: f64,
+    /// Moisture of each cell (dry fraction), `None` where the run ended before this time.
+    pub moisture: Option<Vec<f64>>,
+}
+
+/// How a run ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RunStatus {
+    /// Ran to the end, or reached the target.
+    Ok,
+    /// A target was set and the end time came first.
+    TargetNotReached,
+}
+
+/// Everything a run produces.
+#[derive(Debug, Clone)]
+pub struct RunResult {
+    /// Output rows, the first at time 0.
+    pub curves: Vec<CurveRow>,
+    /// Cell-centre positions from face A, m.
+    pub positions: Vec<f64>,
+    /// Profiles at the requested times.
+    pub profiles: Vec<Profile>,
+    /// How it ended.
+    pub status: RunStatus,
+    /// When the target was reached, s.
+    pub drying_time: Option<f64>,
+    /// Largest |surface - centre| seen at any step, dry fraction.
+    pub max_surface_centre_difference: f64,
+    /// Water removed per m2 of exposed surface, kg/m2.
+    pub water_removed: f64,
+    /// |change of water held + water out| / initial water held.
+    pub mass_balance_error: f64,
+    /// Cells.
+    pub cells: usize,
+    /// Solver work.
+    pub stats: Stats,
+    /// Wall-clock seconds of the solve.
+    pub solve_seconds: f64,
+    /// Times at which schedule steps began, s, with their index.
+    pub step_starts: Vec<(f64, usize)>,
+    /// Things the user should know (e.g. the schedule ran out).
+    pub warnings: Vec<String>,
+}
+
+impl RunResult {
+    /// The last output row.
+    pub fn last(&self) -> Option<&CurveRow> {
+        self.curves.last()
+    }
+}
+
+/// Hooks for a caller: cancellation and progress.
+#[derive(Default)]
+pub struct RunControl<'a> {
+    /// Set to stop the run early with [`SolveError::Cancelled`].
+    pub cancel: Option<&'a AtomicBool>,
+    /// Called now and then with the fraction of the end time reached.
+    pub progress: Option<&'a dyn Fn(f64)>,
+}
+
+/// Runs a problem from start to end (or target).
+pub fn run(problem: &Problem, control: &RunControl<'_>) -> Result<RunResult, SolveError> {
+    let started = Instant::now();
+    let mut d = Driver::new(problem);
+    d.run(control)?;
+    Ok(d.finish(started.elapsed().as_secs_f64()))
+}
+
+struct Driver<'p> {
+    p: &'p Problem,
+    stepper: Stepper<'p>,
+    curves: Vec<CurveRow>,
+    profiles: Vec<Profile>,
+    next_profile: usize,
+    next_output: u64,
+    initial_mean: f64,
+    initial_water: f64,
+    max_difference: f64,
+    drying_time: Option<f64>,
+    status: RunStatus,
+    step_starts: Vec<(f64, usize)>,
+    schedule_done: bool,
+    warnings: Vec<String>,
+}
+
+/// Time comparisons tolerate this relative round-off.
+fn same_time(a: f64, b: f64) -> bool {
+    (a - b).abs() <= 1e-9 * a.abs().max(b.abs()).max(1.0)
+}
+
+impl<'p> Driver<'p> {
+    fn new(p: &'p Problem) -> Driver<'p> {
+        let stepper = Stepper::new(p);
+        let initial_mean = p.mean(&p.initial);
+        Driver {
+            p,
+            stepper,
+            curves: Vec::new(),
+            profiles: Vec::new(),
+            next_profile: 0,
+            next_output: 1,
+            initial_mean,
+            initial_water: p.water(&p.initial),
+            max_difference: 0.0,
+            drying_time: None,
+            status: RunStatus::Ok,
+            step_starts: vec![(0.0, 0)],
+            schedule_done: false,
+            warnings: Vec::new(),
+        }
+    }
+
+    fn output_time(&self, k: u64) -> f64 {
+        self.p.output_every * k as f64
+    }
+
+    /// End of the schedule step in force, if it has a duration.
+    fn step_end(&self) -> Option<f64> {
+        if self.schedule_done {
+            return None;
+        }
+        let (i, start) = self.stepper.schedule_step();
+        self.p.steps.get(i)?.duration.map(|d| start + d)
+    }
+
+    fn set_triggers(&mut self) {
+        let (i, _) = self.stepper.schedule_step();
+        let until = if self.schedule_done {
+            None
+        } else {
+            self.p.steps.get(i).and_then(|s| s.until_moisture)
+        };
+        self.stepper.set_triggers([self.p.target, until]);
+    }
+
+    fn run(&mut self, control: &RunControl<'_>) -> Result<(), SolveError> {
+        self.record_row();
+        self.take_profiles();
+        self.set_triggers();
+        if let Some(target) = self.p.target
+            && (same_time(self.initial_mean, target) || self.initial_mean == target)
+        {
+            self.drying_time = Some(0.0);
+            return Ok(());
+        }
+        let end = self.p.end_time;
+        let mut last_progress = 0.0;
+        loop {
+            if control.cancel.is_some_and(|c| c.load(Ordering::Relaxed)) {
+                return Err(SolveError::Cancelled {
+                    hours: self.stepper.time() / 3600.0,
+                });
+            }
+            let mut stop = end;
+            if let Some(t) = self.step_end() {
+                stop = stop.min(t);
+            }
+            stop = stop.min(self.output_time(self.next_output));
+            if let Some(profile) = self.p.profile_times.get(self.next_profile) {
+                stop = stop.min(*profile);
+            }
+            self.stepper.set_stop_time(stop);
+            let reason = self.stepper.step()?;
+            self.track_difference();
+            let t = self.stepper.time();
+            if let Some(progress) = control.progress
+                && t - last_progress > 1e-3 * end
+            {
+                progress(t / end);
+                last_progress = t;
+            }
+            match reason {
+                StopReason::Internal => {}
+                StopReason::StopTime => {
+                    let mut recorded = false;
+                    while same_time(t, self.output_time(self.next_output))
+                        || self.output_time(self.next_output) < t
+                    {
+                        self.next_output += 1;
+                        if !recorded {
+                            self.record_row();
+                            recorded = true;
+                        }
+                    }
+                    self.take_profiles();
+                    if same_time(t, end) || t >= end {
+                        if !recorded {
+                            self.record_row();
+                        }
+                        if self.p.target.is_some() {
+                            self.status = RunStatus::TargetNotReached;
+                        }
+                        return Ok(());
+                    }
+                    if self.step_end().is_some_and(|e| same_time(t, e) || e < t) {
+                        if !recorded {
+                            self.record_row();
+                        }
+                        self.advance_schedule();
+                    }
+                }
+                StopReason::Trigger(0) => {
+                    self.record_row();
+                    self.take_profiles();
+                    self.drying_time = Some(t);
+                    return Ok(());
+                }
+                StopReason::Trigger(_) => {
+                    self.record_row();
+                    self.take_profiles();
+                    self.advance_schedule();
+                }
+            }
+        }
+    }
+
+    fn advance_schedule(&mut self) {
+        let (i, _) = self.stepper.schedule_step();
+        let t = self.stepper.time();
+        if i + 1 < self.p.steps.len() {
+            self.stepper.set_schedule_step(i + 1, t);
+            self.step_starts.push((t, i + 1));
+            // A step whose trigger is already met ends at once.
+            let mean = self.p.mean(self.stepper.state());
+            if let Some(level) = self.p.steps[i + 1].until_moisture {
+                let direction = self.initial_mean - level;
+                if direction * (mean - level) <= 0.0 {
+                    self.warnings.push(format!(
+                        "step {} ({}) began with its until_moisture already reached; it was skipped",
+                        i + 2,
+                        self.p.steps[i + 1].label
+                    ));
+                    self.advance_schedule();
+                    return;
+                }
+            }
+        } else if !self.schedule_done {
+            self.schedule_done = true;
+            self.warnings.push(format!(
+                "the schedule ran out at {:.3} h; the last step's air was held to the end",
+                t / 3600.0
+            ));
+        }
+        self.set_triggers();
+    }
+
+    fn track_difference(&mut self) {
+        let surfaces = self.stepper.surfaces();
+        let x = self.stepper.state();
+        let surface = if self.p.face_a.is_some() || self.p.face_b.is_none() {
+            surfaces.x_a
+        } else {
+            surfaces.x_b
+        };
+        let d = (surface - self.p.centre_value(x)).abs();
+        if d > self.max_difference {
+            self.max_difference = d;
+        }
+    }
+
+    fn record_row(&mut self) {
+        let t = self.stepper.time();
+        let surfaces = self.stepper.surfaces();
+        let p = self.p;
+        let x = self.stepper.state();
+        let mean = p.mean(x);
+        let surface = if p.face_a.is_some() || p.face_b.is_none() {
+            surfaces.x_a
+        } else {
+            surfaces.x_b
+        };
+        let air = self.stepper.air_at(t);
+        let (step_index, _) = self.stepper.schedule_step();
+        let moisture_ratio = p.steps.get(step_index).and_then(|step| {
+            let eq = p.equilibrium_mean(step, air)?;
+            let span = self.initial_mean - eq;
+            (span.abs() > 1e-12 * self.initial_mean.abs().max(1e-12)).then(|| (mean - eq) / span)
+        });
+        let layer_means = p
+            .mesh
+            .layer_cells
+            .iter()
+            .map(|r| {
+                let m: f64 = p.dry_mass[r.clone()].iter().sum();
+                let w: f64 = p.dry_mass[r.clone()]
+                    .iter()
+                    .zip(&x[r.clone()])
+                    .map(|(a, b)| a * b)
+                    .sum();
+                w / m
+            })
+            .collect();
+        let row = CurveRow {
+            time: t,
+            mean,
+            surface,
+            centre: p.centre_value(x),
+            moisture_ratio,
+            mean_temp_c: air.dry_bulb_c,
+            surface_temp_c: air.dry_bulb_c,
+            centre_temp_c: air.dry_bulb_c,
+            drying_rate: surfaces.total_out(p) / p.total_dry_mass(),
+            air_temp_c: air.dry_bulb_c,
+            air_rh: air.rh,
+            step: step_index,
+            layer_means,
+        };
+        if self.curves.last().is_some_and(|r| same_time(r.time, t)) {
+            self.curves.pop();
+        }
+        self.curves.push(row);
+    }
+
+    fn take_profiles(&mut self) {
+        let t = self.stepper.time();
+        while let Some(&pt) = self.p.profile_times.get(self.next_profile) {
+            if !(same_time(pt, t) || pt < t) {
+                break;
+            }
+            self.profiles.push(Profile {
+                time: pt,
+                moisture: Some(self.stepper.state().to_vec()),
+            });
+            self.next_profile += 1;
+        }
+    }
+
+    fn finish(mut self, solve_seconds: f64) -> RunResult {
+        let t = self.stepper.time();
+        let p = self.p;
+        // Profiles the run did not reach: empty columns where the user asked for them, and
+        // the final state where the times were defaults.
+        for &pt in &p.profile_times[self.next_profile.min(p.profile_times.len())..] {
+            if p.profile_times_given {
+                self.profiles.push(Profile {
+                    time: pt,
+                    moisture: None,
+                });
+            }
+        }
+        if !p.profile_times_given && self.profiles.last().is_none_or(|pr| !same_time(pr.time, t)) {
+            self.profiles.push(Profile {
+                time: t,
+                moisture: Some(self.stepper.state().to_vec()),
+            });
+        }
+        if p.profile_times_given && self.next_profile < p.profile_times.len() {
+            self.warnings.push(format!(
+                "the run ended at {:.3} h, before some profile_hours; those columns are empty",
+                t / 3600.0
+            ));
+        }
+        let water_now = p.water(self.stepper.state());
+        let out = self.stepper.outflow();
+        let mass_balance_error = if self.initial_water > 0.0 {
+            ((self.initial_water - water_now) - out).abs() / self.initial_water
+        } else {
+            ((self.initial_water - water_now) - out).abs()
+        };
+        let water_removed = if p.exposed_area > 0.0 {
+            out / p.exposed_area
+        } else {
+            0.0
+        };
+        RunResult {
+            curves: self.curves,
+            positions: p.mesh.centres.clone(),
+            profiles: self.profiles,
+            status: self.status,
+            drying_time: self.drying_time,
+            max_surface_centre_difference: self.max_difference,
+            water_removed,
+            mass_balance_error,
+            cells: p.len(),
+            stats: self.stepper.stats(),
+            solve_seconds,
+            step_starts: self.step_starts,
+            warnings: self.warnings,
+        }
+    }
+}

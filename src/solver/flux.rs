@@ -1,0 +1,376 @@
+//! Face fluxes and their derivatives, and one backward-Euler Newton solve.
+//!
+//! Face k lies between cell k-1 and cell k (face 0 is face A, face n is face B). The flux F_k
+//! is positive in the direction of increasing position (from face A towards face B), per unit
+//! normalised area. Each face reports F_k and its derivatives with respect to the cell on its
+//! left and on its right; the backward-Euler residual and its tridiagonal Jacobian are
+//! assembled from those.
+
+use super::problem::{FaceLaw, FaceSite, InnerFace, MaterialProps, Problem};
+use super::tridiag;
+use super::workspace::Workspace;
+
+/// Maximum Newton iterations per backward-Euler solve before the step is rejected.
+pub const MAX_NEWTON: usize = 25;
+
+/// Newton converges when every cell's residual, divided by its dry mass, is below this times
+/// the run's moisture scale: far below the time-error tolerance, so mass balance is kept to
+/// round-off.
+pub const NEWTON_TOLERANCE: f64 = 1e-11;
+
+/// Conditions at the two exposed faces during one solve.
+#[derive(Debug, Clone, Copy)]
+pub struct FaceLaws {
+    /// Law at face A.
+    pub a: FaceLaw,
+    /// Law at face B.
+    pub b: FaceLaw,
+}
+
+/// Outcome of one face evaluation: outflow through each exposed face and surface moisture.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Surfaces {
+    /// Outflow rate through face A, kg/s per unit normalised area (positive = drying).
+    pub out_a: f64,
+    /// Outflow rate through face B.
+    pub out_b: f64,
+    /// Surface moisture at face A.
+    pub x_a: f64,
+    /// Surface moisture at face B.
+    pub x_b: f64,
+}
+
+impl Surfaces {
+    /// Total outflow rate (area-weighted), kg/s per unit outer area.
+    pub fn total_out(&self, problem: &Problem) -> f64 {
+        problem.face_a.map_or(0.0, |f| f.area * self.out_a)
+            + problem.face_b.map_or(0.0, |f| f.area * self.out_b)
+    }
+}
+
+/// Flux across a face inside one material, and its derivatives (left, right).
+fn same_material(m: &MaterialProps, distance: f64, xl: f64, xr: f64, t_c: f64) -> [f64; 3] {
+    let xm = 0.5 * (xl + xr);
+    let d = m.diffusivity.at(xm, t_c);
+    let dd = m.diffusivity.slope_x(xm, t_c);
+    let g = m.density / distance;
+    let diff = xl - xr;
+    [
+        g * d * diff,
+        g * (0.5 * dd * diff + d),
+        g * (0.5 * dd * diff - d),
+    ]
+}
+
+/// Equilibrium moisture of `m` at `aw`, capped so that arithmetic stays finite near aw = 1.
+fn moisture_at(m: &MaterialProps, aw: f64, t_c: f64) -> f64 {
+    match m.isotherm.equilibrium_moisture(aw, t_c) {
+        Some(x) if x.is_finite() => x.min(1e6),
+        _ => 1e6,
+    }
+}
+
+fn activity(m: &MaterialProps, x: f64, t_c: f64) -> f64 {
+    m.isotherm.water_activity(x, t_c).unwrap_or(0.0)
+}
+
+/// Flux across a boundary between materials: the interface water activity a* makes the flux
+/// on both sides equal, flux_l = rho_l D_l (X_l - X_l(a*)) / d_l = rho_r D_r (X_r(a*) - X_r) / d_r.
+fn interface_flux(
+    ml: &MaterialProps,
+    mr: &MaterialProps,
+    dl: f64,
+    dr: f64,
+    xl: f64,
+    xr: f64,
+    t_c: f64,
+) -> f64 {
+    let left = |a: f64| {
+        let xs = moisture_at(ml, a, t_c);
+        ml.density * ml.diffusivity.at(0.5 * (xl + xs), t_c) * (xl - xs) / dl
+    };
+    let right = |a: f64| {
+        let xs = moisture_at(mr, a, t_c);
+        mr.density * mr.diffusivity.at(0.5 * (xr + xs), t_c) * (xs - xr) / dr
+    };
+    let (al, ar) = (activity(ml, xl, t_c), activity(mr, xr, t_c));
+    if (al - ar).abs() < 1e-15 {
+        return 0.0;
+    }
+    let (lo, hi) = if al < ar { (al, ar) } else { (ar, al) };
+    let a = bracketed_root(|a| left(a) - right(a), lo, hi, 1e-15);
+    left(a)
+}
+
+/// Root of `f` in [lo, hi] where f changes sign, by the Illinois variant of regula falsi
+/// (superlinear, never leaves the bracket). Returns the bracket end with the smaller |f| when
+/// the ends do not bracket a root.
+pub fn bracketed_root(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64, tol: f64) -> f64 {
+    let mut flo = f(lo);
+    let mut fhi = f(hi);
+    if flo == 0.0 {
+        return lo;
+    }
+    if fhi == 0.0 {
+        return hi;
+    }
+    if flo.signum() == fhi.signum() || !flo.is_finite() || !fhi.is_finite() {
+        return if flo.abs() <= fhi.abs() { lo } else { hi };
+    }
+    let mut side = 0i8;
+    for _ in 0..200 {
+        let mut x = (lo * fhi - hi * flo) / (fhi - flo);
+        if !x.is_finite() || x <= lo.min(hi) || x >= lo.max(hi) {
+            x = 0.5 * (lo + hi);
+        }
+        let fx = f(x);
+        if fx == 0.0 || (hi - lo).abs() <= tol * (1.0 + x.abs()) {
+            return x;
+        }
+        if fx.signum() == fhi.signum() {
+            hi = x;
+            fhi = fx;
+            if side == 1 {
+                flo *= 0.5;
+            }
+            side = 1;
+        } else {
+            lo = x;
+            flo = fx;
+            if side == -1 {
+                fhi *= 0.5;
+            }
+            side = -1;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+/// Outflow through an exposed face from its cell value `xc`: (outflow, d outflow / d xc,
+/// surface moisture). The surface moisture balances conduction over the half cell against the
+/// face law.
+pub fn face_outflow(
+    m: &MaterialProps,
+    site: &FaceSite,
+    law: FaceLaw,
+    xc: f64,
+    t_c: f64,
+) -> (f64, f64, f64) {
+    let g = m.density / site.half_width;
+    // Conduction over the half cell towards the surface, and its partial derivatives.
+    let conduction = |xs: f64| {
+        let xm = 0.5 * (xc + xs);
+        let d = m.diffusivity.at(xm, t_c);
+        let dd = m.diffusivity.slope_x(xm, t_c);
+        let diff = xc - xs;
+        (
+            g * d * diff,
+            g * (0.5 * dd * diff + d),
+            g * (0.5 * dd * diff - d),
+        )
+    };
+    match law {
+        FaceLaw::Sealed => (0.0, 0.0, xc),
+        FaceLaw::Fixed(xs) => {
+            let (j, dj_dxc, _) = conduction(xs);
+            (j, dj_dxc, xs)
+        }
+        FaceLaw::Linear { k, x_eq } => {
+            let external = |xs: f64| (k * (xs - x_eq), k);
+            surface_balance(conduction, external, xc, Some(x_eq))
+        }
+        FaceLaw::AirSide {
+            hm,
+            c_sat,
+            rho_v_air,
+            t_c: ts,
+        } => {
+            let external = |xs: f64| {
+                let aw = activity(m, xs, ts);
+                let slope = m.isotherm.water_activity_slope(xs, ts).unwrap_or(0.0);
+                (hm * (aw * c_sat - rho_v_air), hm * c_sat * slope)
+            };
+            let rh = if c_sat > 0.0 { rho_v_air / c_sat } else { 0.0 };
+            let x_eq = (rh < 1.0)
+                .then(|| m.isotherm.equilibrium_moisture(rh, ts))
+                .flatten()
+                .filter(|x| x.is_finite());
+            surface_balance(conduction, external, xc, x_eq)
+        }
+    }
+}
+
+/// Solves conduction(xs) = external(xs) for the surface moisture xs and returns (outflow,
+/// d outflow / d xc, xs) by the implicit-function theorem.
+fn surface_balance(
+    conduction: impl Fn(f64) -> (f64, f64, f64),
+    external: impl Fn(f64) -> (f64, f64),
+    xc: f64,
+    x_eq: Option<f64>,
+) -> (f64, f64, f64) {
+    let h = |xs: f64| conduction(xs).0 - external(xs).0;
+    let h_c = h(xc);
+    if h_c == 0.0 {
+        let (_, dc, ds) = conduction(xc);
+        let (_, de) = external(xc);
+        return (0.0, de * dc / (de - ds).max(f64::MIN_POSITIVE), xc);
+    }
+    // h decreases with xs; h(xc) < 0 means drying (surface below xc).
+    let far = match x_eq {
+        Some(x) if (x - xc) * h_c >= 0.0 => x,
+        _ => {
+            // Expand from xc until h changes sign; the linear estimate sets the first reach.
+            let stiffness = conduction(xc).1.abs().max(f64::MIN_POSITIVE);
+            let mut reach = (external(xc).0.abs() / stiffness).max(1e-9);
+            let dir = -h_c.signum();
+            let mut x = xc - dir * reach;
+            for _ in 0..80 {
+                x = xc - dir * reach;
+                if h(x).signum() != h_c.signum() {
+                    break;
+                }
+                reach *= 2.0;
+            }
+            x
+        }
+    };
+    let (lo, hi) = if far < xc { (far, xc) } else { (xc, far) };
+    let xs = bracketed_root(h, lo, hi, 1e-15);
+    let (_, dc_dxc, dc_dxs) = conduction(xs);
+    let (j, dj_dxs) = external(xs);
+    // d/dxc of h(xs(xc), xc) = 0: dxs/dxc = -dc_dxc / (dc_dxs - dj_dxs)
+    let denom = dc_dxs - dj_dxs;
+    let dxs = if denom != 0.0 { -dc_dxc / denom } else { 0.0 };
+    (j, dj_dxs * dxs, xs)
+}
+
+/// Evaluates every face flux and derivative at state `x` into the workspace, and returns the
+/// surface figures.
+pub fn evaluate_faces(
+    problem: &Problem,
+    laws: &FaceLaws,
+    t_c: f64,
+    x: &[f64],
+    ws: &mut Workspace,
+) -> Surfaces {
+    let n = x.len();
+    for (k, face) in problem.inner.iter().enumerate() {
+        let k = k + 1;
+        let (xl, xr) = (x[k - 1], x[k]);
+        let [f, dl, dr] = match *face {
+            InnerFace::Same { material, distance } => {
+                same_material(&problem.materials[material], distance, xl, xr, t_c)
+            }
+            InnerFace::Interface {
+                left,
+                right,
+                left_half,
+                right_half,
+            } => {
+                let (ml, mr) = (&problem.materials[left], &problem.materials[right]);
+                let flux =
+                    |a: f64, b: f64| interface_flux(ml, mr, left_half, right_half, a, b, t_c);
+                let el = 1e-7 * (xl.abs() + problem.moisture_scale);
+                let er = 1e-7 * (xr.abs() + problem.moisture_scale);
+                [
+                    flux(xl, xr),
+                    (flux(xl + el, xr) - flux(xl - el, xr)) / (2.0 * el),
+                    (flux(xl, xr + er) - flux(xl, xr - er)) / (2.0 * er),
+                ]
+            }
+        };
+        ws.flux[k] = f;
+        ws.d_left[k] = dl;
+        ws.d_right[k] = dr;
+    }
+    let mut s = Surfaces {
+        x_a: x[0],
+        x_b: x[n - 1],
+        ..Surfaces::default()
+    };
+    ws.flux[0] = 0.0;
+    ws.d_left[0] = 0.0;
+    ws.d_right[0] = 0.0;
+    ws.flux[n] = 0.0;
+    ws.d_left[n] = 0.0;
+    ws.d_right[n] = 0.0;
+    if let Some(site) = &problem.face_a {
+        let m = &problem.materials[site.material];
+        let (j, dj, xs) = face_outflow(m, site, laws.a, x[site.cell], t_c);
+        // Outflow at face A runs towards -s.
+        ws.flux[0] = -j;
+        ws.d_right[0] = -dj;
+        s.out_a = j;
+        s.x_a = xs;
+    }
+    if let Some(site) = &problem.face_b {
+        let m = &problem.materials[site.material];
+        let (j, dj, xs) = face_outflow(m, site, laws.b, x[site.cell], t_c);
+        ws.flux[n] = j;
+        ws.d_left[n] = dj;
+        s.out_b = j;
+        s.x_b = xs;
+    }
+    s
+}
+
+/// Why a backward-Euler solve failed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NewtonFailure {
+    /// No convergence within [`MAX_NEWTON`] iterations.
+    NotConverged,
+    /// A singular matrix or a non-finite value.
+    Breakdown,
+}
+
+/// One backward-Euler step from `old` over `dt`, solved by Newton's method into `new`.
+/// Returns the surfaces at the converged state and the Newton iteration count.
+#[allow(clippy::too_many_arguments)]
+pub fn backward_euler(
+    problem: &Problem,
+    laws: &FaceLaws,
+    t_c: f64,
+    dt: f64,
+    old: &[f64],
+    new: &mut [f64],
+    ws: &mut Workspace,
+) -> Result<(Surfaces, usize), NewtonFailure> {
+    let n = old.len();
+    new.copy_from_slice(old);
+    let areas = &problem.mesh.areas;
+    let mass = &problem.dry_mass;
+    let limit = NEWTON_TOLERANCE * problem.moisture_scale;
+    for iteration in 0..=MAX_NEWTON {
+        let surfaces = evaluate_faces(problem, laws, t_c, new, ws);
+        let mut worst: f64 = 0.0;
+        for i in 0..n {
+            let inflow = areas[i] * ws.flux[i] - areas[i + 1] * ws.flux[i + 1];
+            let r = mass[i] * (new[i] - old[i]) - dt * inflow;
+            worst = worst.max((r / mass[i]).abs());
+            ws.rhs[i] = -r;
+        }
+        if !worst.is_finite() {
+            return Err(NewtonFailure::Breakdown);
+        }
+        if worst <= limit {
+            return Ok((surfaces, iteration));
+        }
+        if iteration == MAX_NEWTON {
+            break;
+        }
+        for i in 0..n {
+            ws.lower[i] = -dt * areas[i] * ws.d_left[i];
+            ws.diag[i] =
+                mass[i] - dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
+            ws.upper[i] = dt * areas[i + 1] * ws.d_right[i + 1];
+        }
+        if !tridiag::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
+            return Err(NewtonFailure::Breakdown);
+        }
+        for (x, d) in new.iter_mut().zip(&ws.rhs) {
+            *x += d;
+        }
+        ws.linear_solves += 1;
+    }
+    Err(NewtonFailure::NotConverged)
+}

@@ -1,0 +1,63 @@
+//! The isothermal moisture solver: a graded finite-volume mesh, Newton on a tridiagonal system
+//! for each backward-Euler step, extrapolation and step-doubling error control, and a run loop
+//! that follows the schedule. Knows nothing of files.
+//!
+//! Layers of the API: [`Problem`] (immutable, built from a case), [`Stepper`] (owns the state,
+//! the step control and a [`Workspace`]; the caller drives `step()`), and [`run`] (the loop that
+//! produces a [`RunResult`]).
+
+mod driver;
+pub mod flux;
+pub mod mesh;
+pub mod problem;
+mod stepper;
+pub mod tridiag;
+mod workspace;
+
+pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
+pub use problem::Problem;
+pub use stepper::{Controller, Stats, Stepper, StopReason};
+pub use workspace::Workspace;
+
+use crate::case::Case;
+
+/// Why a run could not finish.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum SolveError {
+    /// Step-size control gave up.
+    #[error(
+        "the time step fell to {dt:.3e} s at {hours:.4} h without meeting the error test; \
+         the case is too stiff or ill-posed there (check diffusivity and surface values)"
+    )]
+    StepTooSmall {
+        /// Time of failure, h.
+        hours: f64,
+        /// The step that failed, s.
+        dt: f64,
+    },
+    /// Newton's method failed where it had succeeded before.
+    #[error("Newton iterations failed at {hours:.4} h")]
+    NewtonFailed {
+        /// Time of failure, h.
+        hours: f64,
+    },
+    /// The caller asked the run to stop.
+    #[error("the run was cancelled at {hours:.4} h")]
+    Cancelled {
+        /// Time reached, h.
+        hours: f64,
+    },
+    /// The case did not pass validation.
+    #[error("the case is not valid: {0}")]
+    Invalid(String),
+}
+
+/// Validates and runs a case with no cancellation or progress.
+pub fn solve(case: &Case) -> Result<RunResult, SolveError> {
+    let problems = case.validate();
+    if let Some(first) = problems.first() {
+        return Err(SolveError::Invalid(first.to_string()));
+    }
+    run(&Problem::new(case), &RunControl::default())
+}

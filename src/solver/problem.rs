@@ -1,0 +1,509 @@
+//! The discrete problem: a mesh, per-cell properties and a schedule whose surface conditions can
+//! be evaluated at any time. Built once from a [`Case`] and then only borrowed.
+
+use crate::case::{Case, Exchange, Humidity, Step};
+use crate::physics::{self, Diffusivity, Isotherm};
+
+use super::mesh::{Mesh, Refine};
+
+/// Properties of one material as the solver needs them.
+#[derive(Debug, Clone, Copy)]
+pub struct MaterialProps {
+    /// Dry density, kg/m3.
+    pub density: f64,
+    /// Diffusivity law.
+    pub diffusivity: Diffusivity,
+    /// Sorption isotherm.
+    pub isotherm: Isotherm,
+}
+
+/// Air state at one moment.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Air {
+    /// Dry-bulb temperature, degrees C.
+    pub dry_bulb_c: f64,
+    /// Relative humidity, fraction, where known.
+    pub rh: Option<f64>,
+}
+
+/// One schedule step, resolved for the solver.
+#[derive(Debug, Clone)]
+pub struct StepPlan {
+    /// Label.
+    pub label: String,
+    /// Duration, s.
+    pub duration: Option<f64>,
+    /// Mean-moisture trigger, dry fraction.
+    pub until_moisture: Option<f64>,
+    /// Air at the start of the step (the previous step's air for a ramp).
+    pub from: Air,
+    /// Air at the end of the step.
+    pub to: Air,
+    /// Surface exchange law.
+    pub exchange: Exchange,
+    /// Given equilibrium moisture, dry fraction.
+    pub equilibrium_moisture: Option<f64>,
+    /// Whether air changes linearly over the step.
+    pub ramp: bool,
+}
+
+impl StepPlan {
+    /// The air at `elapsed` seconds into the step.
+    pub fn air_at(&self, elapsed: f64) -> Air {
+        match (self.ramp, self.duration) {
+            (true, Some(d)) if d > 0.0 => {
+                let f = (elapsed / d).clamp(0.0, 1.0);
+                let lerp = |a: f64, b: f64| a + f * (b - a);
+                Air {
+                    dry_bulb_c: lerp(self.from.dry_bulb_c, self.to.dry_bulb_c),
+                    rh: match (self.from.rh, self.to.rh) {
+                        (Some(a), Some(b)) => Some(lerp(a, b)),
+                        (_, b) => b,
+                    },
+                }
+            }
+            _ => self.to,
+        }
+    }
+}
+
+/// What one exposed face sees at one moment.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum FaceLaw {
+    /// No exchange.
+    Sealed,
+    /// Surface moisture fixed (dry fraction).
+    Fixed(f64),
+    /// flux = k (X_s - x_eq), with k = beta rho_s (kg/(m2 s)).
+    Linear {
+        /// beta times dry density.
+        k: f64,
+        /// Equilibrium moisture, dry fraction.
+        x_eq: f64,
+    },
+    /// flux = hm (aw(X_s) c_sat - rho_v_air).
+    AirSide {
+        /// Mass transfer coefficient, m/s.
+        hm: f64,
+        /// Saturated vapour density at the surface temperature, kg/m3.
+        c_sat: f64,
+        /// Vapour density of the air, kg/m3.
+        rho_v_air: f64,
+        /// Surface temperature for the isotherm, degrees C.
+        t_c: f64,
+    },
+}
+
+/// An exposed face's fixed geometry.
+#[derive(Debug, Clone, Copy)]
+pub struct FaceSite {
+    /// Cell next to the face.
+    pub cell: usize,
+    /// Distance from that cell's centre to the face, m.
+    pub half_width: f64,
+    /// Material of that cell.
+    pub material: usize,
+    /// Face area (normalised).
+    pub area: f64,
+}
+
+/// An interior face.
+#[derive(Debug, Clone, Copy)]
+pub enum InnerFace {
+    /// Both sides of one material: flux = rho D(mean X) (X_l - X_r) / distance.
+    Same {
+        /// Material index.
+        material: usize,
+        /// Centre-to-centre distance, m.
+        distance: f64,
+    },
+    /// A boundary between materials: water activity continuous, flux continuous.
+    Interface {
+        /// Material on the A side.
+        left: usize,
+        /// Material on the B side.
+        right: usize,
+        /// Left centre to face, m.
+        left_half: f64,
+        /// Face to right centre, m.
+        right_half: f64,
+    },
+}
+
+/// The discrete problem.
+#[derive(Debug, Clone)]
+pub struct Problem {
+    /// The mesh.
+    pub mesh: Mesh,
+    /// Materials.
+    pub materials: Vec<MaterialProps>,
+    /// Material of each cell.
+    pub cell_material: Vec<usize>,
+    /// Dry mass of each cell per unit outer area, kg/m2.
+    pub dry_mass: Vec<f64>,
+    /// Interior faces 1..n-1 (index k-1 for face k).
+    pub inner: Vec<InnerFace>,
+    /// Face A when exposed.
+    pub face_a: Option<FaceSite>,
+    /// Face B when exposed.
+    pub face_b: Option<FaceSite>,
+    /// Initial moisture of each cell, dry fraction.
+    pub initial: Vec<f64>,
+    /// The schedule.
+    pub steps: Vec<StepPlan>,
+    /// Simulated time limit, s.
+    pub end_time: f64,
+    /// Target mean moisture, dry fraction.
+    pub target: Option<f64>,
+    /// Output row spacing, s.
+    pub output_every: f64,
+    /// Profile times, s.
+    pub profile_times: Vec<f64>,
+    /// Whether the profile times were given (otherwise a final profile is added).
+    pub profile_times_given: bool,
+    /// Relative local error tolerance.
+    pub tolerance: f64,
+    /// Typical moisture swing of the run, dry fraction, for absolute tolerances.
+    pub moisture_scale: f64,
+    /// Total exposed area (normalised), for per-m2 figures.
+    pub exposed_area: f64,
+    /// Length along the flow for correlations, m.
+    pub flow_length: f64,
+    /// Where "centre" is: the cells to interpolate and their weights.
+    pub centre: [(usize, f64); 2],
+}
+
+impl Problem {
+    /// Builds the discrete problem from a validated case.
+    pub fn new(case: &Case) -> Problem {
+        let n_layers = case.layers.len();
+        let refine: Vec<Refine> = (0..n_layers)
+            .map(|i| Refine {
+                start: if i == 0 { case.exposed.a() } else { true },
+                end: if i + 1 == n_layers {
+                    case.exposed.b()
+                } else {
+                    true
+                },
+            })
+            .collect();
+        let thicknesses: Vec<f64> = case.layers.iter().map(|l| l.thickness).collect();
+        let mesh = Mesh::new(
+            case.geometry.index(),
+            &thicknesses,
+            case.cells_per_layer,
+            &refine,
+        );
+        let materials: Vec<MaterialProps> = case
+            .materials
+            .iter()
+            .map(|m| MaterialProps {
+                density: m.dry_density,
+                diffusivity: m.diffusivity,
+                isotherm: m.isotherm,
+            })
+            .collect();
+        let cell_material: Vec<usize> = mesh
+            .layer_of
+            .iter()
+            .map(|&l| case.layers[l].material)
+            .collect();
+        let dry_mass: Vec<f64> = mesh
+            .volumes
+            .iter()
+            .zip(&cell_material)
+            .map(|(v, &m)| v * materials[m].density)
+            .collect();
+        let initial: Vec<f64> = mesh
+            .layer_of
+            .iter()
+            .map(|&l| case.layers[l].initial_moisture)
+            .collect();
+        let n = mesh.len();
+        let inner = (1..n)
+            .map(|k| {
+                let (l, r) = (cell_material[k - 1], cell_material[k]);
+                if l == r {
+                    InnerFace::Same {
+                        material: l,
+                        distance: mesh.centres[k] - mesh.centres[k - 1],
+                    }
+                } else {
+                    InnerFace::Interface {
+                        left: l,
+                        right: r,
+                        left_half: mesh.faces[k] - mesh.centres[k - 1],
+                        right_half: mesh.centres[k] - mesh.faces[k],
+                    }
+                }
+            })
+            .collect();
+        let face_a = case.exposed.a().then(|| FaceSite {
+            cell: 0,
+            half_width: mesh.centres[0] - mesh.faces[0],
+            material: cell_material[0],
+            area: mesh.areas[0],
+        });
+        let face_b = case.exposed.b().then(|| FaceSite {
+            cell: n - 1,
+            half_width: mesh.faces[n] - mesh.centres[n - 1],
+            material: cell_material[n - 1],
+            area: mesh.areas[n],
+        });
+        let exposed_area = face_a.map_or(0.0, |f| f.area) + face_b.map_or(0.0, |f| f.area);
+        let steps = plan_steps(&case.schedule);
+        let output_every = case.output_interval();
+        let (profile_times, profile_times_given) = match &case.profile_times {
+            Some(t) => {
+                let mut t = t.clone();
+                t.sort_by(f64::total_cmp);
+                t.dedup();
+                (t, true)
+            }
+            None => (
+                (0..6).map(|i| case.end_time * i as f64 / 5.0).collect(),
+                false,
+            ),
+        };
+        let centre = centre_weights(&mesh, case);
+        let moisture_scale = moisture_scale(case, &steps, &materials);
+        Problem {
+            mesh,
+            materials,
+            cell_material,
+            dry_mass,
+            inner,
+            face_a,
+            face_b,
+            initial,
+            steps,
+            end_time: case.end_time,
+            target: case.target_moisture,
+            output_every,
+            profile_times,
+            profile_times_given,
+            tolerance: case.tolerance,
+            moisture_scale,
+            exposed_area,
+            flow_length: case.flow_length,
+            centre,
+        }
+    }
+
+    /// Number of cells.
+    pub fn len(&self) -> usize {
+        self.mesh.len()
+    }
+
+    /// Whether there are no cells.
+    pub fn is_empty(&self) -> bool {
+        self.mesh.is_empty()
+    }
+
+    /// Total dry mass per unit outer area, kg/m2.
+    pub fn total_dry_mass(&self) -> f64 {
+        self.dry_mass.iter().sum()
+    }
+
+    /// Dry-mass weighted mean moisture of `x`.
+    pub fn mean(&self, x: &[f64]) -> f64 {
+        let w: f64 = self.dry_mass.iter().zip(x).map(|(m, x)| m * x).sum();
+        w / self.total_dry_mass()
+    }
+
+    /// Water held per unit outer area, kg/m2.
+    pub fn water(&self, x: &[f64]) -> f64 {
+        self.dry_mass.iter().zip(x).map(|(m, x)| m * x).sum()
+    }
+
+    /// Moisture at the centre (the point farthest from every exposed face).
+    pub fn centre_value(&self, x: &[f64]) -> f64 {
+        let [(i, wi), (j, wj)] = self.centre;
+        wi * x[i] + wj * x[j]
+    }
+
+    /// The face law a face of `material` sees under `air` during `step`.
+    pub fn face_law(&self, step: &StepPlan, air: Air, material: usize) -> FaceLaw {
+        let props = &self.materials[material];
+        let equilibrium = || {
+            step.equilibrium_moisture.or_else(|| {
+                air.rh
+                    .and_then(|rh| props.isotherm.equilibrium_moisture(rh, air.dry_bulb_c))
+            })
+        };
+        let air_side = |hm: f64| {
+            let c_sat = saturated_vapour_density(air.dry_bulb_c);
+            FaceLaw::AirSide {
+                hm,
+                c_sat,
+                rho_v_air: air.rh.unwrap_or(0.0) * c_sat,
+                t_c: air.dry_bulb_c,
+            }
+        };
+        match step.exchange {
+            Exchange::Unspecified => FaceLaw::Sealed,
+            Exchange::FixedSurface(x) => FaceLaw::Fixed(x),
+            Exchange::SurfaceCoefficient(beta) => match equilibrium() {
+                Some(x_eq) => FaceLaw::Linear {
+                    k: beta * props.density,
+                    x_eq,
+                },
+                None => FaceLaw::Sealed,
+            },
+            Exchange::AirSide(hm) => air_side(hm),
+            Exchange::AirVelocity(v) => {
+                let props = physics::transfer::air_properties(
+                    air.dry_bulb_c,
+                    physics::STANDARD_PRESSURE_PA,
+                );
+                air_side(physics::transfer::flat_plate_mass_coef(
+                    v,
+                    self.flow_length,
+                    &props,
+                ))
+            }
+        }
+    }
+
+    /// Mean equilibrium moisture of the whole body under `air` in `step` (each layer at the
+    /// surface's water activity), where it can be known.
+    pub fn equilibrium_mean(&self, step: &StepPlan, air: Air) -> Option<f64> {
+        let surface_material = self.face_a.or(self.face_b)?.material;
+        let single = self.cell_material.iter().all(|&m| m == surface_material);
+        let given = match step.exchange {
+            Exchange::FixedSurface(x) => Some(x),
+            _ => step.equilibrium_moisture,
+        };
+        if single {
+            return given.or_else(|| {
+                let iso = self.materials[surface_material].isotherm;
+                air.rh
+                    .and_then(|rh| iso.equilibrium_moisture(rh, air.dry_bulb_c))
+            });
+        }
+        let aw = match given {
+            Some(x) => self.materials[surface_material]
+                .isotherm
+                .water_activity(x, air.dry_bulb_c)?,
+            None => air.rh?,
+        };
+        let mut held = 0.0;
+        for (&m, &mass) in self.cell_material.iter().zip(&self.dry_mass) {
+            let x = self.materials[m]
+                .isotherm
+                .equilibrium_moisture(aw, air.dry_bulb_c)?;
+            held += mass * x;
+        }
+        Some(held / self.total_dry_mass())
+    }
+}
+
+/// Saturated water-vapour density at `t_c`, kg/m3 (ideal gas).
+pub fn saturated_vapour_density(t_c: f64) -> f64 {
+    physics::psychro::vapour_density_kg_m3(physics::psychro::saturation_pressure_pa(t_c), t_c)
+}
+
+fn air_of(step: &Step) -> Air {
+    let rh = match step.humidity {
+        Humidity::Unspecified => None,
+        Humidity::Relative(rh) => Some(rh),
+        Humidity::WetBulb(tw) => Some(physics::psychro::rh_from_wet_bulb(
+            step.dry_bulb_c,
+            tw,
+            physics::STANDARD_PRESSURE_PA,
+        )),
+    };
+    Air {
+        dry_bulb_c: step.dry_bulb_c,
+        rh,
+    }
+}
+
+fn plan_steps(schedule: &[Step]) -> Vec<StepPlan> {
+    let mut plans: Vec<StepPlan> = Vec::with_capacity(schedule.len());
+    for s in schedule {
+        let to = air_of(s);
+        let from = match plans.last() {
+            Some(prev) if s.ramp => prev.to,
+            _ => to,
+        };
+        plans.push(StepPlan {
+            label: s.label.clone(),
+            duration: s.duration,
+            until_moisture: s.until_moisture,
+            from,
+            to,
+            exchange: s.exchange,
+            equilibrium_moisture: s.equilibrium_moisture,
+            ramp: s.ramp,
+        });
+    }
+    plans
+}
+
+/// The cells and weights that give the moisture at the centre.
+fn centre_weights(mesh: &Mesh, case: &Case) -> [(usize, f64); 2] {
+    let n = mesh.len();
+    let last = n - 1;
+    let at_a = case.exposed.a();
+    let at_b = case.exposed.b();
+    if mesh.m > 0 {
+        return [(last, 1.0), (last, 0.0)];
+    }
+    match (at_a, at_b) {
+        (true, false) => [(last, 1.0), (last, 0.0)],
+        (false, true) => [(0, 1.0), (0, 0.0)],
+        _ => {
+            // Mid-plane: interpolate linearly between the two cell centres around it.
+            let mid = 0.5 * mesh.length;
+            let j = mesh
+                .centres
+                .partition_point(|&c| c < mid)
+                .clamp(1, last.max(1));
+            if n == 1 {
+                return [(0, 1.0), (0, 0.0)];
+            }
+            let (c0, c1) = (mesh.centres[j - 1], mesh.centres[j]);
+            let w = ((mid - c0) / (c1 - c0)).clamp(0.0, 1.0);
+            [(j - 1, 1.0 - w), (j, w)]
+        }
+    }
+}
+
+/// The run's moisture swing: the spread of initial, fixed and equilibrium moistures.
+fn moisture_scale(case: &Case, steps: &[StepPlan], materials: &[MaterialProps]) -> f64 {
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    let mut take = |x: f64| {
+        if x.is_finite() {
+            lo = lo.min(x);
+            hi = hi.max(x);
+        }
+    };
+    for l in &case.layers {
+        take(l.initial_moisture);
+    }
+    for s in steps {
+        if let Exchange::FixedSurface(x) = s.exchange {
+            take(x);
+        }
+        if let Some(x) = s.equilibrium_moisture {
+            take(x);
+        }
+        for air in [s.from, s.to] {
+            if let Some(rh) = air.rh {
+                for m in materials {
+                    if let Some(x) = m.isotherm.equilibrium_moisture(rh, air.dry_bulb_c) {
+                        take(x);
+                    }
+                }
+            }
+        }
+    }
+    let swing = hi - lo;
+    if swing.is_finite() && swing > 0.0 {
+        swing.max(1e-3 * hi.abs())
+    } else {
+        hi.abs().max(1e-3)
+    }
+}

@@ -1,0 +1,42 @@
+//! Buffers the solver writes into, sized once from the mesh so that the inner loop never
+//! allocates.
+
+/// Scratch arrays for face fluxes and the tridiagonal system.
+#[derive(Debug, Clone)]
+pub struct Workspace {
+    /// Face fluxes, n + 1.
+    pub flux: Vec<f64>,
+    /// d flux / d (left cell), n + 1.
+    pub d_left: Vec<f64>,
+    /// d flux / d (right cell), n + 1.
+    pub d_right: Vec<f64>,
+    /// Sub-diagonal, n.
+    pub lower: Vec<f64>,
+    /// Diagonal, n.
+    pub diag: Vec<f64>,
+    /// Super-diagonal, n.
+    pub upper: Vec<f64>,
+    /// Right-hand side, then solution, n.
+    pub rhs: Vec<f64>,
+    /// Thomas algorithm scratch, n.
+    pub scratch: Vec<f64>,
+    /// Linear solves done (counted here because the Newton loop owns them).
+    pub linear_solves: u64,
+}
+
+impl Workspace {
+    /// Buffers for `n` cells.
+    pub fn new(n: usize) -> Workspace {
+        Workspace {
+            flux: vec![0.0; n + 1],
+            d_left: vec![0.0; n + 1],
+            d_right: vec![0.0; n + 1],
+            lower: vec![0.0; n],
+            diag: vec![0.0; n],
+            upper: vec![0.0; n],
+            rhs: vec![0.0; n],
+            scratch: vec![0.0; n],
+            linear_solves: 0,
+        }
+    }
+}
