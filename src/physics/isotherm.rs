@@ -337,14 +337,17 @@ impl WoodConstants {
                 hi = h;
             }
             let step = f / self.moisture_pct_slope(h);
-            let mut next = h - step;
-            if !(next > lo && next < hi) {
-                next = 0.5 * (lo + hi);
+            // Converged when the Newton correction is at round-off; it may then touch an end
+            // of the bracket, so test before the bracket check.
+            if step.abs() <= 2.0 * f64::EPSILON * h {
+                return (h - step).clamp(lo, hi);
             }
-            if (next - h).abs() <= 2.0 * f64::EPSILON * h {
-                return next;
-            }
-            h = next;
+            let next = h - step;
+            h = if next > lo && next < hi {
+                next
+            } else {
+                0.5 * (lo + hi)
+            };
         }
         h
     }
