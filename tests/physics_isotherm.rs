@@ -380,3 +380,16 @@ fn validate_accepts_good_and_rejects_bad_parameters() {
     };
     assert_eq!(all_bad.validate().len(), 3);
 }
+
+#[test]
+fn nan_in_nan_out() {
+    // A missing value must not turn into a plausible number.
+    for iso in isotherms() {
+        let aw = iso.water_activity(f64::NAN, 20.0).expect("isotherm");
+        assert!(aw.is_nan(), "{iso:?}: {aw}");
+        let x = iso.equilibrium_moisture(f64::NAN, 20.0).expect("isotherm");
+        assert!(x.is_nan(), "{iso:?}: {x}");
+    }
+    let aw = Isotherm::Wood.water_activity(0.1, f64::NAN).expect("wood");
+    assert!(aw.is_nan(), "wood at a NaN temperature: {aw}");
+}

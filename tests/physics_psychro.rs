@@ -26,13 +26,13 @@ fn if97_region4_at_kiln_temperatures() {
     // printed to 0.01 Pa. Relative 1e-6, except that a value printed to 0.01 Pa cannot be
     // better than half that last digit (2e-6 relative at 20 C).
     for (t_c, p_ref) in [
-        (20.0, 2339.21),
+        (20.0, 2339.21_f64),
         (40.0, 7384.43),
         (60.0, 19945.80),
         (80.0, 47414.72),
         (100.0, 101417.98),
     ] {
-        let tol = (1e-6 * p_ref as f64).max(0.005);
+        let tol = (1e-6 * p_ref).max(0.005);
         assert_abs(
             saturation_pressure_pa(t_c),
             p_ref,
@@ -273,4 +273,14 @@ fn latent_heat_against_steam_tables() {
     // Vanishes at the critical point and is held at the triple point below it.
     assert_eq!(latent_heat_j_kg(400.0), 0.0);
     assert_eq!(latent_heat_j_kg(-10.0), latent_heat_j_kg(0.01));
+}
+
+#[test]
+fn nan_in_nan_out() {
+    // A missing value must not turn into a plausible number.
+    assert!(saturation_pressure_pa(f64::NAN).is_nan());
+    assert!(saturation_pressure_slope_pa_k(f64::NAN).is_nan());
+    assert!(latent_heat_j_kg(f64::NAN).is_nan());
+    assert!(rh_from_wet_bulb(f64::NAN, 20.0, STANDARD_PRESSURE_PA).is_nan());
+    assert!(rh_from_wet_bulb(40.0, f64::NAN, STANDARD_PRESSURE_PA).is_nan());
 }

@@ -316,10 +316,14 @@ impl WoodConstants {
     /// method is kept inside a shrinking bracket [lo, hi] and falls back to bisection whenever a
     /// step would leave it.
     fn activity(&self, m_pct: f64) -> f64 {
+        let m_sat = self.moisture_pct(1.0);
+        if m_pct.is_nan() || m_sat.is_nan() {
+            return f64::NAN;
+        }
         if m_pct <= 0.0 {
             return 0.0;
         }
-        if m_pct >= self.moisture_pct(1.0) {
+        if m_pct >= m_sat {
             return 1.0;
         }
         let (mut lo, mut hi) = (0.0_f64, 1.0_f64);
