@@ -316,10 +316,14 @@ impl WoodConstants {
     /// method is kept inside a shrinking bracket [lo, hi] and falls back to bisection whenever a
     /// step would leave it.
     fn activity(&self, m_pct: f64) -> f64 {
+        let m_sat = self.moisture_pct(1.0);
+        if m_pct.is_nan() || m_sat.is_nan() {
+            return f64::NAN;
+        }
         if m_pct <= 0.0 {
             return 0.0;
         }
-        if m_pct >= self.moisture_pct(1.0) {
+        if m_pct >= m_sat {
             return 1.0;
         }
         let (mut lo, mut hi) = (0.0_f64, 1.0_f64);
@@ -337,14 +341,17 @@ impl WoodConstants {
                 hi = h;
             }
             let step = f / self.moisture_pct_slope(h);
-            let mut next = h - step;
-            if !(next > lo && next < hi) {
-                next = 0.5 * (lo + hi);
+            // Converged when the Newton correction is at round-off; it may then touch an end
+            // of the bracket, so test before the bracket check.
+            if step.abs() <= 2.0 * f64::EPSILON * h {
+                return (h - step).clamp(lo, hi);
             }
-            if (next - h).abs() <= 2.0 * f64::EPSILON * h {
-                return next;
-            }
-            h = next;
+            let next = h - step;
+            h = if next > lo && next < hi {
+                next
+            } else {
+                0.5 * (lo + hi)
+            };
         }
         h
     }

@@ -62,9 +62,9 @@ const HW_ICE: [f64; 7] = [
 pub fn saturation_pressure_pa(t_c: f64) -> f64 {
     let t_k = t_c + ZERO_CELSIUS_K;
     if t_c >= 0.0 {
-        if97_beta(t_k.min(CRITICAL_T_K)).0.powi(4) * 1e6
+        if97_beta(t_k.clamp(ZERO_CELSIUS_K, CRITICAL_T_K)).0.powi(4) * 1e6
     } else {
-        hw_ice_ln_p(t_k.max(ICE_MIN_T_K)).exp()
+        hw_ice_ln_p(t_k.clamp(ICE_MIN_T_K, ZERO_CELSIUS_K)).exp()
     }
 }
 
@@ -189,7 +189,8 @@ pub fn rh_from_wet_bulb(dry_bulb_c: f64, wet_bulb_c: f64, p_pa: f64) -> f64 {
     if w.is_infinite() {
         return 1.0;
     }
-    let w = w.max(0.0);
+    // Not `max`, which would turn a NaN into 0.
+    let w = if w < 0.0 { 0.0 } else { w };
     let p_w = p_pa * w / (MOLAR_MASS_RATIO + w);
     (p_w / saturation_pressure_pa(dry_bulb_c)).clamp(0.0, 1.0)
 }
