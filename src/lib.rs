@@ -12,4 +12,5 @@ pub mod analytic;
 pub mod case;
 pub mod physics;
 pub mod solver;
+pub mod text;
 pub mod watch;

@@ -115,6 +115,7 @@ pub(super) fn validate(case: &Case) -> Vec<Problem> {
     check_settings(case, &mut c);
     check_materials(case, &mut c);
     check_layers(case, &mut c);
+    check_interfaces(case, &mut c);
     check_schedule(case, &mut c);
     c.problems
 }
@@ -258,6 +259,31 @@ fn check_layers(case: &Case, c: &mut Checker) {
                     l.initial_temp_c
                 ),
             );
+        }
+    }
+}
+
+fn check_interfaces(case: &Case, c: &mut Checker) {
+    // Water activity carries moisture across a boundary between materials: both need one.
+    for (i, pair) in case.layers.windows(2).enumerate() {
+        if pair[0].material == pair[1].material {
+            continue;
+        }
+        for (index, layer) in [(i, &pair[0]), (i + 1, &pair[1])] {
+            let none = case
+                .materials
+                .get(layer.material)
+                .is_some_and(|m| m.isotherm == Isotherm::None);
+            if none {
+                c.push(
+                    Place::Layer {
+                        index,
+                        column: "material",
+                    },
+                    "layers of different materials meet here: both materials need an isotherm \
+                     (water activity is continuous across the boundary)",
+                );
+            }
         }
     }
 }

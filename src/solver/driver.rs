@@ -73,6 +73,8 @@ pub struct RunResult {
     pub drying_time: Option<f64>,
     /// Largest |surface - centre| seen at any step, dry fraction.
     pub max_surface_centre_difference: f64,
+    /// The (surface, centre) moistures at that moment, dry fraction.
+    pub max_surface_centre_difference_pair: Option<(f64, f64)>,
     /// Water removed per m2 of exposed surface, kg/m2.
     pub water_removed: f64,
     /// |change of water held + water out| / initial water held.
@@ -123,6 +125,7 @@ struct Driver<'p> {
     initial_mean: f64,
     initial_water: f64,
     max_difference: f64,
+    max_pair: Option<(f64, f64)>,
     drying_time: Option<f64>,
     status: RunStatus,
     step_starts: Vec<(f64, usize)>,
@@ -149,6 +152,7 @@ impl<'p> Driver<'p> {
             initial_mean,
             initial_water: p.water(&p.initial),
             max_difference: 0.0,
+            max_pair: None,
             drying_time: None,
             status: RunStatus::Ok,
             step_starts: vec![(0.0, 0)],
@@ -182,6 +186,7 @@ impl<'p> Driver<'p> {
 
     fn run(&mut self, control: &RunControl<'_>) -> Result<(), SolveError> {
         self.record_row();
+        self.track_difference();
         self.take_profiles();
         self.set_triggers();
         if let Some(target) = self.p.target
@@ -299,9 +304,11 @@ impl<'p> Driver<'p> {
         } else {
             surfaces.x_b
         };
-        let d = (surface - self.p.centre_value(x)).abs();
-        if d > self.max_difference {
+        let centre = self.p.centre_value(x);
+        let d = (surface - centre).abs();
+        if d > self.max_difference || self.max_pair.is_none() {
             self.max_difference = d;
+            self.max_pair = Some((surface, centre));
         }
     }
 
@@ -416,6 +423,7 @@ impl<'p> Driver<'p> {
             status: self.status,
             drying_time: self.drying_time,
             max_surface_centre_difference: self.max_difference,
+            max_surface_centre_difference_pair: self.max_pair,
             water_removed,
             mass_balance_error,
             cells: p.len(),
