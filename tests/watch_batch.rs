@@ -96,7 +96,10 @@ fn shard_one_of_three_takes_positions_zero_three_six_nine_in_path_order() {
         .iter()
         .map(|r| r.file.display().to_string())
         .collect();
-    assert_eq!(files, ["case-00.csv", "case-03.csv", "case-06.csv", "case-09.csv"]);
+    assert_eq!(
+        files,
+        ["case-00.csv", "case-03.csv", "case-06.csv", "case-09.csv"]
+    );
 }
 
 #[test]
@@ -160,7 +163,11 @@ fn recursive_finds_inputs_in_sub_folders_but_not_hidden_ones() {
         ..quick_batch(dir.path())
     };
     let summary = run(&opts, &fake);
-    let files: Vec<String> = summary.rows.iter().map(|r| r.file.display().to_string()).collect();
+    let files: Vec<String> = summary
+        .rows
+        .iter()
+        .map(|r| r.file.display().to_string())
+        .collect();
     assert_eq!(files, ["kiln-2/inner.csv"]);
     assert_eq!(fake.runs_of("old.csv"), 0);
 }
@@ -217,21 +224,35 @@ fn a_stale_lock_of_a_dead_process_is_taken_over() {
 fn a_fresh_lock_of_a_live_process_is_honoured_and_kept() {
     let dir = Scratch::new();
     dir.write("oak.csv", "x");
-    write_lock(&dir, "oak", &host_name(), std::process::id(), unix_secs_ago(5));
+    write_lock(
+        &dir,
+        "oak",
+        &host_name(),
+        std::process::id(),
+        unix_secs_ago(5),
+    );
     let fake = Fake::solving();
     let summary = run(&quick_batch(dir.path()), &fake);
     assert_eq!(fake.runs_of("oak.csv"), 0);
     assert!(matches!(summary.skipped[0].reason, SkipReason::Locked(_)));
-    assert!(fs::read_to_string(lock_path(&dir.file("oak.csv")))
-        .unwrap()
-        .contains("token=someone-else"));
+    assert!(
+        fs::read_to_string(lock_path(&dir.file("oak.csv")))
+            .unwrap()
+            .contains("token=someone-else")
+    );
 }
 
 #[test]
 fn an_old_lock_of_a_live_process_is_honoured() {
     let dir = Scratch::new();
     dir.write("oak.csv", "x");
-    write_lock(&dir, "oak", &host_name(), std::process::id(), unix_secs_ago(3600));
+    write_lock(
+        &dir,
+        "oak",
+        &host_name(),
+        std::process::id(),
+        unix_secs_ago(3600),
+    );
     let fake = Fake::solving();
     run(&quick_batch(dir.path()), &fake);
     assert_eq!(fake.runs_of("oak.csv"), 0);
@@ -260,8 +281,20 @@ fn a_lock_from_another_host_is_judged_by_age_alone() {
     dir.write("fresh.csv", "x");
     dir.write("old.csv", "x");
     // Our own pid on another host says nothing about that host's process.
-    write_lock(&dir, "fresh", "kiln-pc-elsewhere", std::process::id(), unix_secs_ago(5));
-    write_lock(&dir, "old", "kiln-pc-elsewhere", std::process::id(), unix_secs_ago(3600));
+    write_lock(
+        &dir,
+        "fresh",
+        "kiln-pc-elsewhere",
+        std::process::id(),
+        unix_secs_ago(5),
+    );
+    write_lock(
+        &dir,
+        "old",
+        "kiln-pc-elsewhere",
+        std::process::id(),
+        unix_secs_ago(3600),
+    );
     let fake = Fake::solving();
     run(&quick_batch(dir.path()), &fake);
     assert_eq!(fake.runs_of("fresh.csv"), 0);
@@ -277,11 +310,20 @@ fn setting_stop_skips_what_has_not_started() {
     }
     let fake = Fake::solving();
     let processor: Arc<dyn Processor> = fake.clone();
-    let summary =
-        batch_until(&quick_batch(dir.path()), processor, Arc::new(AtomicBool::new(true))).unwrap();
+    let summary = batch_until(
+        &quick_batch(dir.path()),
+        processor,
+        Arc::new(AtomicBool::new(true)),
+    )
+    .unwrap();
     assert!(fake.calls().is_empty());
     assert_eq!(summary.skipped.len(), 4);
-    assert!(summary.skipped.iter().all(|s| s.reason == SkipReason::Interrupted));
+    assert!(
+        summary
+            .skipped
+            .iter()
+            .all(|s| s.reason == SkipReason::Interrupted)
+    );
     assert!(dir.leftovers().is_empty(), "{:?}", dir.leftovers());
 }
 

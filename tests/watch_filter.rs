@@ -37,7 +37,15 @@ fn workbooks_and_csv_pass_in_any_case() {
 
 #[test]
 fn other_extensions_dont_pass() {
-    for name in ["oak.txt", "oak.xlsb", "oak.json", "oak", "xlsx", "oak.xlsx.bak", "oak.pdf"] {
+    for name in [
+        "oak.txt",
+        "oak.xlsb",
+        "oak.json",
+        "oak",
+        "xlsx",
+        "oak.xlsx.bak",
+        "oak.pdf",
+    ] {
         doesnt_pass(name);
     }
 }
@@ -99,7 +107,10 @@ fn outputs_and_lock_sit_beside_the_input_named_after_its_stem() {
         errors_path(input),
         Path::new("/srv/drying/inbox/oak 40mm.v2.errors.xlsx")
     );
-    assert_eq!(lock_path(input), Path::new("/srv/drying/inbox/oak 40mm.v2.lock"));
+    assert_eq!(
+        lock_path(input),
+        Path::new("/srv/drying/inbox/oak 40mm.v2.lock")
+    );
 }
 
 #[test]

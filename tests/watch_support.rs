@@ -52,7 +52,11 @@ impl Scratch {
     pub fn set_mtime(&self, name: &str, offset_secs: i64) {
         let now = SystemTime::now();
         let delta = Duration::from_secs(offset_secs.unsigned_abs());
-        let time = if offset_secs >= 0 { now + delta } else { now - delta };
+        let time = if offset_secs >= 0 {
+            now + delta
+        } else {
+            now - delta
+        };
         fs::File::options()
             .write(true)
             .open(self.file(name))
