@@ -24,11 +24,17 @@ pub struct Scratch {
     dir: tempfile::TempDir,
 }
 
-impl Scratch {
-    pub fn new() -> Scratch {
+impl Default for Scratch {
+    fn default() -> Scratch {
         Scratch {
             dir: tempfile::tempdir().unwrap(),
         }
+    }
+}
+
+impl Scratch {
+    pub fn new() -> Scratch {
+        Scratch::default()
     }
 
     pub fn path(&self) -> &Path {
