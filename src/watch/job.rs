@@ -110,16 +110,16 @@ impl Context {
     /// The one log line per input.
     pub(crate) fn log(&self, path: &Path, report: &Report, seconds: f64) {
         let file = self.display_name(path);
-        let drying_time_h = report.drying_time_h.map(|h| format!("{h:.2}"));
+        // Rounded for reading; the workbook has the full values.
+        let drying_time_h = report.drying_time_h.map(|h| (h * 100.0).round() / 100.0);
+        let detail = (!report.detail.is_empty()).then_some(report.detail.as_str());
         tracing::info!(
             file = %file.display(),
             outcome = %report.status,
             seconds = (seconds * 100.0).round() / 100.0,
-            drying_time_h = drying_time_h.as_deref().unwrap_or("-"),
-            detail = %report.detail,
-            "{}: {} in {seconds:.1} s",
-            file.display(),
-            report.status,
+            drying_time_h,
+            detail,
+            "input done"
         );
     }
 }

@@ -125,14 +125,18 @@ pub(crate) fn try_lock(
     for _ in 0..3 {
         match OpenOptions::new().write(true).create_new(true).open(&path) {
             Ok(mut file) => {
-                let guard = LockGuard {
+                let written = file
+                    .write_all(owner.contents().as_bytes())
+                    .and_then(|()| file.flush());
+                if let Err(e) = written {
+                    // A half-written lock has no token to recognise it by later.
+                    let _ = fs::remove_file(&path);
+                    return Err(e);
+                }
+                return Ok(Acquire::Taken(LockGuard {
                     path: path.clone(),
                     token: owner.token.clone(),
-                };
-                // On a write failure the guard removes the half-written lock.
-                file.write_all(owner.contents().as_bytes())?;
-                file.flush()?;
-                return Ok(Acquire::Taken(guard));
+                }));
             }
             Err(e) if e.kind() == io::ErrorKind::AlreadyExists => {}
             Err(e) => return Err(e),
