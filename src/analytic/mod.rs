@@ -30,7 +30,7 @@ mod special;
 
 pub use one_term::one_term_coefficient;
 pub use profile::slab_profile;
-pub use roots::{bessel_j0_zero, eigenvalues, weight};
+pub use roots::{bessel_j0_zero, bessel_j1_zero, eigenvalues, weight};
 pub use series::Series;
 pub use special::{erfcx, ierfc, uptake_f, uptake_g};
 

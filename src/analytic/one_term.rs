@@ -5,7 +5,7 @@
 //! Their Bi uses the half-thickness or the radius, so it is Crank's `L` and `zeta_1` is `beta_1`.
 
 use super::Shape;
-use super::roots::{bessel_j0_zero, eigenvalue};
+use super::roots::nth_eigenvalue;
 
 /// `(zeta_1, C1)` for the plane wall, infinite cylinder or sphere at Biot number `biot`
 /// (Incropera & DeWitt, Table 5.1).
@@ -23,12 +23,7 @@ pub fn one_term_coefficient(shape: Shape, biot: f64) -> (f64, f64) {
     if biot == 0.0 {
         return (0.0, 1.0);
     }
-    let j0_first = if shape == Shape::Cylinder {
-        bessel_j0_zero(1)
-    } else {
-        0.0
-    };
-    let z = eigenvalue(shape, biot, 1, 0.0, j0_first);
+    let z = nth_eigenvalue(shape, biot, 1);
     let c1 = match shape {
         Shape::Slab => 4.0 * z.sin() / (2.0 * z + (2.0 * z).sin()),
         Shape::Cylinder => {

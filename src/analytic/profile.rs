@@ -14,9 +14,9 @@
 //!
 //! Absolute accuracy about 1e-14 at every `T > 0`.
 
-use super::Surface;
-use super::roots::{biot_of, eigenvalue};
+use super::roots::{biot_of, nth_eigenvalue};
 use super::special::erfcx;
+use super::{Shape, Surface};
 use std::f64::consts::PI;
 
 /// Below this `T` the fixed-surface profile is summed as error functions.
@@ -107,7 +107,7 @@ fn evaporation_series(l: f64, t: f64, xi: f64) -> f64 {
     let mut sum = 0.0;
     let mut n = 1usize;
     loop {
-        let beta = eigenvalue(super::Shape::Slab, l, n, 0.0, 0.0);
+        let beta = nth_eigenvalue(Shape::Slab, l, n);
         if beta * beta * t > CUTOFF || !beta.is_finite() {
             break;
         }

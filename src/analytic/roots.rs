@@ -94,10 +94,10 @@ pub(crate) fn brent(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64, sign_a: f64)
     b
 }
 
-/// The n-th positive zero of J0 (n >= 1).
+/// The n-th positive zero of J0 (n >= 1); NaN for n = 0.
 ///
 /// The zero lies in ((n - 1/4) pi, (n - 1/8) pi) (McMahon: j ~ (n - 1/4) pi + 1/(8 (n - 1/4) pi)),
-/// which is checked by the sign change before it is used.
+/// where J0 changes sign.
 pub fn bessel_j0_zero(n: usize) -> f64 {
     if n == 0 {
         return f64::NAN;
@@ -106,6 +106,18 @@ pub fn bessel_j0_zero(n: usize) -> f64 {
     let hi = (n as f64 - 0.125) * PI;
     // J0 has the sign (-1)^(n-1) just below its n-th zero.
     brent(libm::j0, lo, hi, alt(n - 1))
+}
+
+/// The n-th positive zero of J1 (n >= 1); 0 for n = 0 (J1(0) = 0).
+///
+/// The zero lies in ((n + 1/8) pi, (n + 1/4) pi) (McMahon: j ~ (n + 1/4) pi - 3/(8 (n + 1/4) pi)).
+pub fn bessel_j1_zero(n: usize) -> f64 {
+    if n == 0 {
+        return 0.0;
+    }
+    let lo = (n as f64 + 0.125) * PI;
+    let hi = (n as f64 + 0.25) * PI;
+    brent(libm::j1, lo, hi, alt(n - 1))
 }
 
 /// `beta cot beta - 1`, by its Taylor series near 0 where the direct form loses digits.
@@ -136,8 +148,10 @@ fn alt(n: usize) -> f64 {
 
 /// The n-th eigenvalue (n >= 1) for a Biot number `l` (>= 0, `+inf` = fixed surface).
 ///
-/// For the cylinder, `j0_prev` and `j0_this` are the zeros n-1 and n of J0 (zero 0 is 0).
-pub(crate) fn eigenvalue(shape: Shape, l: f64, n: usize, j0_prev: f64, j0_this: f64) -> f64 {
+/// For the cylinder, `j1_prev` is zero n-1 of J1 (zero 0 is 0) and `j0_this` zero n of J0:
+/// the root lies between them, and at `j1_prev`, where J0 is largest, the sign of the equation
+/// is clear even for a huge Biot number (at zero n-1 of J0 it would not be).
+pub(crate) fn eigenvalue(shape: Shape, l: f64, n: usize, j1_prev: f64, j0_this: f64) -> f64 {
     let k = n as f64;
     match shape {
         Shape::Slab => {
@@ -158,11 +172,10 @@ pub(crate) fn eigenvalue(shape: Shape, l: f64, n: usize, j0_prev: f64, j0_this: 
             if l.is_infinite() {
                 j0_this
             } else {
-                // f = beta J1 - L J0 at zero n-1 of J0 has the sign of J1 there, (-1)^n
-                // (and -L at 0 for n = 1).
+                // f = beta J1 - L J0 at zero n-1 of J1 is -L J0 there, of sign (-1)^n.
                 brent(
                     |b| b * libm::j1(b) - l * libm::j0(b),
-                    j0_prev,
+                    j1_prev,
                     j0_this,
                     alt(n),
                 )
@@ -206,18 +219,22 @@ pub fn eigenvalues(shape: Shape, surface: Surface, count: usize) -> Vec<f64> {
     if l.is_nan() {
         return vec![f64::NAN; count];
     }
-    let mut out = Vec::with_capacity(count);
-    let mut j0_prev = 0.0;
-    for n in 1..=count {
-        let j0_this = if shape == Shape::Cylinder {
-            bessel_j0_zero(n)
-        } else {
+    (1..=count).map(|n| nth_eigenvalue(shape, l, n)).collect()
+}
+
+/// The n-th eigenvalue (n >= 1) for Biot number `l`, with the Bessel zeros it needs.
+pub(crate) fn nth_eigenvalue(shape: Shape, l: f64, n: usize) -> f64 {
+    if shape == Shape::Cylinder {
+        let j0_this = bessel_j0_zero(n);
+        let j1_prev = if l.is_infinite() {
             0.0
+        } else {
+            bessel_j1_zero(n - 1)
         };
-        out.push(eigenvalue(shape, l, n, j0_prev, j0_this));
-        j0_prev = j0_this;
+        eigenvalue(shape, l, n, j1_prev, j0_this)
+    } else {
+        eigenvalue(shape, l, n, 0.0, 0.0)
     }
-    out
 }
 
 /// Weight of the term `exp(-beta^2 T)` in `1 - Mt/Minf` (see [`Series`](super::Series)).
@@ -260,11 +277,14 @@ mod tests {
     }
 
     #[test]
-    fn j0_zeros_fit_their_intervals() {
+    fn bessel_zeros_fit_their_intervals() {
         for n in [1, 2, 10, 1000, 5000] {
             let z = bessel_j0_zero(n);
             assert!(z.is_finite());
             assert!(libm::j0(z).abs() < 1e-14, "n = {n}");
+            let z = bessel_j1_zero(n);
+            assert!(z.is_finite());
+            assert!(libm::j1(z).abs() < 1e-14, "n = {n}");
         }
     }
 }
