@@ -141,6 +141,9 @@ pub(crate) fn biot_of(surface: Surface) -> f64 {
     }
 }
 
+/// Below this Biot number the first root is bracketed by its small-L approximation.
+const SMALL_BIOT: f64 = 0.01;
+
 /// `(-1)^n` as a float.
 fn alt(n: usize) -> f64 {
     if n % 2 == 0 { 1.0 } else { -1.0 }
@@ -153,6 +156,23 @@ fn alt(n: usize) -> f64 {
 /// is clear even for a huge Biot number (at zero n-1 of J0 it would not be).
 pub(crate) fn eigenvalue(shape: Shape, l: f64, n: usize, j1_prev: f64, j0_this: f64) -> f64 {
     let k = n as f64;
+    if n == 1 && l < SMALL_BIOT {
+        // The first root is ~ sqrt(c L), c = 1, 2, 3 (beta^2 = L (1 - L/3), 2L (1 - L/4),
+        // 3L (1 - L/5) from the Taylor series): bracket it closely, or bisection from
+        // [0, pi/2] would need hundreds of halvings for a tiny L.
+        let c = match shape {
+            Shape::Slab => 1.0,
+            Shape::Cylinder => 2.0,
+            Shape::Sphere => 3.0,
+        };
+        let hi = (c * l).sqrt();
+        let lo = 0.9 * hi;
+        return match shape {
+            Shape::Slab => brent(|b| b * b.sin() - l * b.cos(), lo, hi, -1.0),
+            Shape::Cylinder => brent(|b| b * libm::j1(b) - l * libm::j0(b), lo, hi, -1.0),
+            Shape::Sphere => brent(|b| beta_cot_minus_one(b) + l, lo, hi, 1.0),
+        };
+    }
     match shape {
         Shape::Slab => {
             if l.is_infinite() {
