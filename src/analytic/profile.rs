@@ -71,7 +71,7 @@ fn fixed_series(t: f64, xi: f64) -> f64 {
         if exponent > CUTOFF {
             break;
         }
-        let sign = if n % 2 == 0 { 1.0 } else { -1.0 };
+        let sign = if n.is_multiple_of(2) { 1.0 } else { -1.0 };
         sum += sign / k * (-exponent).exp() * (k * PI * xi / 2.0).cos();
         n += 1;
     }
@@ -89,7 +89,7 @@ fn fixed_short(t: f64, xi: f64) -> f64 {
         if near * near > CUTOFF {
             break;
         }
-        let sign = if n % 2 == 0 { 1.0 } else { -1.0 };
+        let sign = if n.is_multiple_of(2) { 1.0 } else { -1.0 };
         sum += sign * (libm::erfc((k - xi) / w) + libm::erfc((k + xi) / w));
         n += 1;
     }
@@ -99,8 +99,9 @@ fn fixed_short(t: f64, xi: f64) -> f64 {
 /// Semi-infinite solid with surface evaporation, at depth `s` (in units of `l`) below the face.
 fn semi_infinite(l: f64, t: f64, s: f64) -> f64 {
     let u = s / (2.0 * t.sqrt());
-    // exp(L s + L^2 T) erfc(u + L sqrt T) = exp(-u^2) erfcx(u + L sqrt T): no overflow.
-    libm::erfc(u) - (-u * u).exp() * erfcx(u + l * t.sqrt())
+    // erfc(u) - exp(L s + L^2 T) erfc(u + L sqrt T) = exp(-u^2) [erfcx(u) - erfcx(u + L sqrt T)]:
+    // no overflow, and never below 0 deep inside, where both terms are nearly equal.
+    (-u * u).exp() * (erfcx(u) - erfcx(u + l * t.sqrt())).max(0.0)
 }
 
 fn evaporation_series(l: f64, t: f64, xi: f64) -> f64 {

@@ -146,7 +146,7 @@ const SMALL_BIOT: f64 = 0.01;
 
 /// `(-1)^n` as a float.
 fn alt(n: usize) -> f64 {
-    if n % 2 == 0 { 1.0 } else { -1.0 }
+    if n.is_multiple_of(2) { 1.0 } else { -1.0 }
 }
 
 /// The n-th eigenvalue (n >= 1) for a Biot number `l` (>= 0, `+inf` = fixed surface).
