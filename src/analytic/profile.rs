@@ -9,10 +9,12 @@
 //! * Surface evaporation, Crank ch. 4 (p. 60 for the uptake):
 //!   `1 - sum_n 2 L cos(beta_n xi) exp(-beta_n^2 T) / ((beta_n^2 + L^2 + L) cos beta_n)`
 //!   for `T >= 0.02`; below it the semi-infinite solid with surface evaporation, one term for
-//!   each face, `erfc(u) - exp(-u^2) erfcx(u + L sqrt T)` with `u = (1 -+ xi) / (2 sqrt T)`
-//!   (Crank ch. 2, from memory), which leaves out terms of order `exp(-1/T)`.
+//!   each face, `erfc(u) - exp(L s + L^2 T) erfc(u + L sqrt T)` at depth `s = 1 -+ xi` with
+//!   `u = s / (2 sqrt T)` (Crank ch. 2, from memory), which leaves out terms of order
+//!   `exp(-1/T)`; it is evaluated as `exp(-u^2) [erfcx(u) - erfcx(u + L sqrt T)]`.
 //!
-//! Absolute accuracy about 1e-14 at every `T > 0`.
+//! Absolute accuracy about 1e-13 at every `T > 0` (the tests check 1e-12 against both series
+//! summed directly with 20 000 terms).
 
 use super::roots::{biot_of, nth_eigenvalue};
 use super::special::erfcx;

@@ -5,11 +5,12 @@
 //! | shape | fixed surface | surface evaporation, Biot number L |
 //! |---|---|---|
 //! | slab | (n - 1/2) pi | beta tan beta = L, root n in ((n-1) pi, (n-1/2) pi) |
-//! | cylinder | zeros of J0 | beta J1(beta) = L J0(beta), root n between zeros n-1 and n of J0 |
-//! | sphere | n pi | beta cot beta = 1 - L, root n in ((n-1) pi, n pi) |
+//! | cylinder | zeros of J0 | beta J1(beta) = L J0(beta), root n between zero n-1 of J1 and zero n of J0 |
+//! | sphere | n pi | beta cot beta = 1 - L, root n in ((n-1) pi, (n-1/2) pi) for L < 1, ((n-1/2) pi, n pi) for L > 1 |
 //!
-//! The equations are written in forms without poles (e.g. `beta sin beta - L cos beta`), so a
-//! sign change at the ends of each interval is guaranteed and the root finder never fails.
+//! The equations are written in forms without poles (e.g. `beta sin beta - L cos beta`), so the
+//! sign change at the ends of each interval is known in advance and the root finder cannot fail.
+//! A tiny Biot number gets a close bracket around its first root, ~ sqrt(L), sqrt(2L), sqrt(3L).
 
 use super::{Shape, Surface};
 use std::f64::consts::{FRAC_PI_2, PI};
@@ -244,7 +245,9 @@ pub fn eigenvalues(shape: Shape, surface: Surface, count: usize) -> Vec<f64> {
 
 /// The n-th eigenvalue (n >= 1) for Biot number `l`, with the Bessel zeros it needs.
 pub(crate) fn nth_eigenvalue(shape: Shape, l: f64, n: usize) -> f64 {
-    if shape == Shape::Cylinder {
+    if n == 0 || l.is_nan() || l < 0.0 {
+        f64::NAN
+    } else if shape == Shape::Cylinder {
         let j0_this = bessel_j0_zero(n);
         let j1_prev = if l.is_infinite() {
             0.0
@@ -260,8 +263,12 @@ pub(crate) fn nth_eigenvalue(shape: Shape, l: f64, n: usize) -> f64 {
 /// Weight of the term `exp(-beta^2 T)` in `1 - Mt/Minf` (see [`Series`](super::Series)).
 ///
 /// Written with `L/beta^2` and `beta^2/L` so that neither tiny nor huge Biot numbers over- or
-/// underflow. `l = +inf` gives the fixed-surface weight.
+/// underflow. `l = +inf` gives the fixed-surface weight, `l = 0` the weight 0; a negative or NaN
+/// `l` gives NaN.
 pub fn weight(shape: Shape, l: f64, beta: f64) -> f64 {
+    if l.is_nan() || l < 0.0 {
+        return f64::NAN;
+    }
     let b2 = beta * beta;
     let m = match shape {
         Shape::Slab => 2.0,

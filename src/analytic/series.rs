@@ -31,9 +31,11 @@
 //!   (see `cylinder_correction`); what is left is of order `T^2`, so it is used only for
 //!   `T < 2e-6`.
 //!
-//! Accuracy of [`Series::fraction_exchanged`], checked in the tests against the long series with
-//! 40 000 roots: absolute error below 1e-14 for every case at every `T`, except the cylinder with
-//! evaporation, below 1e-12 (at most 4e-13, next to its crossover `T = 2e-6`, for large `L`).
+//! Accuracy of [`Series::fraction_exchanged`]: absolute error below 1e-12 for every shape and
+//! surface at every `T` (the tests check this against the long series with 40 000 roots from
+//! `T = 1e-8` to 3; the short-time forms only get better for smaller `T`). In practice the error
+//! is about 1e-15, except for the cylinder with evaporation next to its crossover `T = 2e-6`,
+//! where it reaches 4e-13 for large `L`.
 
 use super::roots::{biot_of, brent, nth_eigenvalue, weight};
 use super::special::{FRAC_1_SQRT_PI, ierfc, uptake_f, uptake_g};
@@ -52,6 +54,10 @@ const CROSSOVER_EVAPORATION: f64 = 0.02;
 const CROSSOVER_CYLINDER_EVAPORATION: f64 = 2e-6;
 /// Terms with `beta^2 T` above this are below `exp(-50)` ~ 2e-22 and are not summed.
 const EXPONENT_CUTOFF: f64 = 50.0;
+/// Largest `T` at which [`Series::short_time`] gives a value.
+const SHORT_TIME_MAX: f64 = 1.0;
+/// Most roots [`Series::with_terms`] will compute.
+const MAX_TERMS: usize = 1_000_000;
 /// Terms of the fixed-cylinder short-time expansion (the terms fall fast up to T = 0.02).
 const CYLINDER_TERMS: usize = 24;
 
@@ -80,8 +86,8 @@ impl Series {
         Series::with_terms(shape, surface, 0)
     }
 
-    /// Like [`Series::new`], with at least `terms` roots, so that [`Series::long_time`] is also
-    /// exact for smaller `T` (down to about `50 / (terms pi)^2`).
+    /// Like [`Series::new`], with at least `terms` roots (at most 1 000 000), so that
+    /// [`Series::long_time`] is also exact for smaller `T` (down to about `50 / (terms pi)^2`).
     pub fn with_terms(shape: Shape, surface: Surface, terms: usize) -> Series {
         let biot = biot_of(surface);
         let crossover = match (shape, biot.is_infinite()) {
@@ -95,7 +101,7 @@ impl Series {
         let count = if biot.is_nan() || biot == 0.0 {
             0
         } else {
-            needed.max(terms)
+            needed.max(terms.min(MAX_TERMS))
         };
         let roots: Vec<f64> = (1..=count)
             .map(|n| nth_eigenvalue(shape, biot, n))
@@ -150,9 +156,9 @@ impl Series {
     /// `Mt/Minf` at dimensionless time `T = D t / l^2`: 0 at `T = 0`, rising to 1.
     ///
     /// Uses [`Series::short_time`] below [`Series::crossover`] and [`Series::long_time`] from it
-    /// on; see the module documentation for the accuracy (1e-12 or better, 1e-10 for the
-    /// cylinder with evaporation below `T = 5e-7`). NaN for a NaN or negative `T` or an invalid
-    /// Biot number; 1 for `T = +inf`; 0 for every `T` when the Biot number is 0.
+    /// on; see the module documentation for the accuracy (better than 1e-12 in every case).
+    /// NaN for a NaN or negative `T` or an invalid Biot number; 1 for `T = +inf`; 0 for every
+    /// `T` when the Biot number is 0.
     pub fn fraction_exchanged(&self, t: f64) -> f64 {
         if t.is_nan() || t < 0.0 || self.biot.is_nan() {
             f64::NAN
@@ -188,7 +194,7 @@ impl Series {
         let mut hi = 1.0;
         while self.fraction_exchanged(hi) < fraction {
             hi *= 4.0;
-            if hi > 1e300 {
+            if hi.is_infinite() {
                 return f64::INFINITY;
             }
         }
@@ -220,10 +226,11 @@ impl Series {
 
     /// The short-time form of `Mt/Minf` for this case (see the module documentation).
     ///
-    /// Exact at every `T` for the sheet and sphere with a fixed surface; accurate below
-    /// [`Series::crossover`] otherwise. NaN as for `fraction_exchanged`.
+    /// Exact for the sheet and sphere with a fixed surface (to round-off up to `T = 1`);
+    /// accurate below [`Series::crossover`] otherwise. NaN as for `fraction_exchanged`, and for
+    /// `T > 1`, where no short-time form is meant to be used.
     pub fn short_time(&self, t: f64) -> f64 {
-        if t.is_nan() || t < 0.0 || self.biot.is_nan() {
+        if t.is_nan() || !(0.0..=SHORT_TIME_MAX).contains(&t) || self.biot.is_nan() {
             return f64::NAN;
         }
         if t == 0.0 || self.biot == 0.0 {
