@@ -10,6 +10,7 @@
 
 pub mod analytic;
 pub mod case;
+pub mod check;
 pub mod physics;
 pub mod solver;
 pub mod text;
