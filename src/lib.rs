@@ -13,3 +13,4 @@ pub mod case;
 pub mod physics;
 pub mod solver;
 pub mod watch;
+pub mod workbook;
