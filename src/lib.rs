@@ -15,3 +15,4 @@ pub mod physics;
 pub mod solver;
 pub mod text;
 pub mod watch;
+pub mod workbook;
