@@ -11,7 +11,9 @@
 pub mod analytic;
 pub mod case;
 pub mod check;
+pub mod cli;
 pub mod physics;
+pub mod pipeline;
 pub mod solver;
 pub mod text;
 pub mod watch;

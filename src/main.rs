@@ -1,1 +1,28 @@
-fn main() {}
+//! The `dampfront` command: parses the command line, runs it, maps the outcome to an exit code
+//! (0 every input ran, 1 some input had problems, 2 usage or system error).
+
+use std::process::ExitCode;
+
+use clap::Parser;
+use dampfront::cli::{self, Cli, Outcome};
+
+fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            // Help and version are successes; anything else is a usage error.
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    cli::init_logging(cli.log_json);
+    match cli::run(cli) {
+        Ok(Outcome::Ok) => ExitCode::SUCCESS,
+        Ok(Outcome::Problems) => ExitCode::from(1),
+        Err(e) => {
+            eprintln!("dampfront: {e:#}");
+            ExitCode::from(2)
+        }
+    }
+}

@@ -10,3 +10,5 @@
 pub mod parse;
 pub mod raw;
 pub mod read;
+pub mod template;
+pub mod write;

@@ -1,0 +1,299 @@
+//! The command line: argument types (clap) and [`run`], which maps every command to an
+//! [`Outcome`] that `main` turns into an exit code (0 all inputs ran, 1 some input had problems,
+//! 2 usage or system error).
+
+use std::io::{self, IsTerminal, Write};
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::sync::atomic::AtomicBool;
+use std::time::Duration;
+
+use anyhow::{Context, bail};
+use clap::{Parser, Subcommand};
+
+use crate::check;
+use crate::pipeline::{Pipeline, problem_line};
+use crate::watch::{self, Attempt, BatchOptions, Shard, Status, WatchOptions};
+use crate::workbook::template::{self, Kind};
+
+/// Moisture diffusion in drying wood, food and ceramics, from case workbooks to result workbooks.
+#[derive(Debug, Parser)]
+#[command(name = "dampfront", version, about, long_about = None)]
+pub struct Cli {
+    /// Log as JSON lines (for log collectors) instead of plain text.
+    #[arg(long, global = true)]
+    pub log_json: bool,
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Run each case workbook once; results go next to each input unless --out is given.
+    Solve {
+        /// Case workbooks (.xlsx .xlsm .xls .ods .csv).
+        #[arg(required = true)]
+        files: Vec<PathBuf>,
+        /// Write results into this folder.
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Also write <stem>.curves.csv and <stem>.profiles.csv.
+        #[arg(long)]
+        csv: bool,
+    },
+    /// Watch a folder and answer every new or changed workbook with its result; runs until
+    /// SIGINT or SIGTERM.
+    Watch {
+        /// The folder.
+        dir: PathBuf,
+        /// Cases run at once (default: available cores).
+        #[arg(long)]
+        jobs: Option<usize>,
+        /// Wait until a file's size and time have been still this long, ms.
+        #[arg(long, default_value_t = 1000)]
+        settle_ms: u64,
+        /// Poll the folder every SECS seconds instead of using file events (network shares).
+        #[arg(long, value_name = "SECS")]
+        poll: Option<f64>,
+        /// Also watch sub-folders.
+        #[arg(long)]
+        recursive: bool,
+        /// Rescan interval, s (events can be missed).
+        #[arg(long, default_value_t = 30.0, hide = true)]
+        rescan_secs: f64,
+        /// Age after which another watcher's abandoned lock is taken over, s.
+        #[arg(long, default_value_t = 600.0, hide = true)]
+        stale_lock_secs: f64,
+        /// How long running cases may finish after SIGINT/SIGTERM, s.
+        #[arg(long, default_value_t = 30.0, hide = true)]
+        grace_secs: f64,
+    },
+    /// One pass over a folder with the watcher's rules, then a closing table.
+    Batch {
+        /// The folder.
+        dir: PathBuf,
+        /// Cases run at once (default: available cores).
+        #[arg(long)]
+        jobs: Option<usize>,
+        /// Run every input, even those with an up-to-date result.
+        #[arg(long)]
+        force: bool,
+        /// Run only share I of N (inputs whose sorted position modulo N is I-1).
+        #[arg(long, value_name = "I/N")]
+        shard: Option<Shard>,
+        /// Also run sub-folders.
+        #[arg(long)]
+        recursive: bool,
+        /// Wait until a file's size and time have been still this long, ms.
+        #[arg(long, default_value_t = 1000, hide = true)]
+        settle_ms: u64,
+        /// Age after which an abandoned lock is taken over, s.
+        #[arg(long, default_value_t = 600.0, hide = true)]
+        stale_lock_secs: f64,
+    },
+    /// Write a ready-to-run example workbook: wood, food, clay or blank.
+    New {
+        /// wood, food, clay or blank.
+        kind: String,
+        /// The workbook to write (.xlsx, or .csv for the sectioned CSV form).
+        file: PathBuf,
+    },
+    /// Run the built-in analytical checks (series solutions against the engine) and print a table.
+    Verify,
+}
+
+/// How a command ended, for the exit code.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Outcome {
+    /// Everything ran.
+    Ok,
+    /// Some input had problems (or a check failed).
+    Problems,
+}
+
+fn secs(v: f64, what: &str) -> anyhow::Result<Duration> {
+    Duration::try_from_secs_f64(v)
+        .with_context(|| format!("{what} must be a number of seconds >= 0"))
+}
+
+fn jobs(j: Option<usize>) -> usize {
+    j.unwrap_or(0)
+}
+
+/// Writes to stdout; a closed pipe (e.g. `| head`) is not an error.
+fn print(text: &str) -> anyhow::Result<()> {
+    let mut out = io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Err(e) if e.kind() != io::ErrorKind::BrokenPipe => Err(e.into()),
+        _ => Ok(()),
+    }
+}
+
+/// Runs a parsed command line.
+pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
+    match cli.command {
+        Command::Solve { files, out, csv } => solve(&files, out, csv),
+        Command::Watch {
+            dir,
+            jobs: j,
+            settle_ms,
+            poll,
+            recursive,
+            rescan_secs,
+            stale_lock_secs,
+            grace_secs,
+        } => {
+            let mut opts = WatchOptions::new(dir);
+            opts.jobs = jobs(j);
+            opts.settle = Duration::from_millis(settle_ms);
+            opts.poll = poll.map(|p| secs(p, "--poll")).transpose()?;
+            opts.recursive = recursive;
+            opts.rescan = secs(rescan_secs, "--rescan-secs")?;
+            opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
+            opts.grace = secs(grace_secs, "--grace-secs")?;
+            watch::watch(&opts, Arc::new(Pipeline::default()))?;
+            Ok(Outcome::Ok)
+        }
+        Command::Batch {
+            dir,
+            jobs: j,
+            force,
+            shard,
+            recursive,
+            settle_ms,
+            stale_lock_secs,
+        } => {
+            let mut opts = BatchOptions::new(dir);
+            opts.jobs = jobs(j);
+            opts.force = force;
+            opts.shard = shard;
+            opts.recursive = recursive;
+            opts.settle = Duration::from_millis(settle_ms);
+            opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
+            opts.progress = io::stderr().is_terminal();
+            let summary = watch::batch(&opts, Arc::new(Pipeline::default()))?;
+            print(&summary.to_string())?;
+            Ok(if summary.any_problems() {
+                Outcome::Problems
+            } else {
+                Outcome::Ok
+            })
+        }
+        Command::New { kind, file } => new(&kind, &file),
+        Command::Verify => verify(),
+    }
+}
+
+fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<Outcome> {
+    if let Some(dir) = &out {
+        std::fs::create_dir_all(dir)
+            .with_context(|| format!("could not create the output folder {}", dir.display()))?;
+    }
+    let pipeline = Pipeline { out_dir: out, csv };
+    let cancel = AtomicBool::new(false);
+    let mut outcome = Outcome::Ok;
+    let mut system_error = None;
+    for file in files {
+        let result = pipeline.run_file(file, Attempt::Final, &cancel);
+        let mut lines = String::new();
+        for p in &result.problems {
+            lines.push_str(&problem_line(file, p));
+            lines.push('\n');
+        }
+        print(&lines)?;
+        tracing::info!(
+            file = %file.display(),
+            status = %result.report.status,
+            seconds = result.seconds,
+            "{}",
+            result.report.detail
+        );
+        match result.report.status {
+            Status::Solved | Status::TargetNotReached => {}
+            Status::Problems | Status::NotReady => outcome = Outcome::Problems,
+            Status::Failed => {
+                system_error = Some(format!("{}: {}", file.display(), result.report.detail))
+            }
+        }
+    }
+    if let Some(e) = system_error {
+        bail!(e);
+    }
+    Ok(outcome)
+}
+
+fn new(kind: &str, file: &Path) -> anyhow::Result<Outcome> {
+    let Some(kind) = Kind::from_name(kind) else {
+        bail!("unknown example kind {kind:?}: choose wood, food, clay or blank");
+    };
+    if file.exists() {
+        bail!(
+            "{} already exists; choose another name (nothing was overwritten)",
+            file.display()
+        );
+    }
+    let sheets = template::sheets(kind);
+    let is_csv = file
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
+    let bytes = if is_csv {
+        template::to_csv(&sheets).into_bytes()
+    } else {
+        template::to_xlsx(&sheets)?
+    };
+    crate::workbook::write::write_atomically(file, &bytes)
+        .with_context(|| format!("could not write {}", file.display()))?;
+    print(&format!(
+        "wrote {} ({} example)\n",
+        file.display(),
+        kind.name()
+    ))?;
+    Ok(Outcome::Ok)
+}
+
+fn verify() -> anyhow::Result<Outcome> {
+    let rows = check::verify();
+    let mut text = format!(
+        "{:<44} {:>12} {:>10} {:>12} {:>6}\n",
+        "case", "max error", "limit", "mass bal.", "pass"
+    );
+    for r in &rows {
+        text.push_str(&format!(
+            "{:<44} {:>12.3e} {:>10.0e} {:>12.1e} {:>6}\n",
+            r.name,
+            r.max_error,
+            r.limit,
+            r.mass_balance_error,
+            if r.passed() { "yes" } else { "NO" }
+        ));
+    }
+    let failed = rows.iter().filter(|r| !r.passed()).count();
+    text.push_str(&format!(
+        "{} of {} checks passed (series: J. Crank, The Mathematics of Diffusion, 2nd ed., 1975)\n",
+        rows.len() - failed,
+        rows.len()
+    ));
+    print(&text)?;
+    Ok(if failed == 0 {
+        Outcome::Ok
+    } else {
+        Outcome::Problems
+    })
+}
+
+/// Sets up logging to standard error.
+pub fn init_logging(json: bool) {
+    let filter = tracing_subscriber::EnvFilter::try_from_default_env()
+        .unwrap_or_else(|_| tracing_subscriber::EnvFilter::new("info"));
+    let builder = tracing_subscriber::fmt()
+        .with_env_filter(filter)
+        .with_writer(io::stderr)
+        .with_target(false);
+    if json {
+        builder.json().init();
+    } else {
+        builder.init();
+    }
+}

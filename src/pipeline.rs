@@ -1,0 +1,251 @@
+//! One input file from bytes to result: read, parse, solve, write. Shared by `solve`, `batch`
+//! and `watch` (through [`watch::Processor`]).
+
+use std::path::{Path, PathBuf};
+use std::sync::atomic::AtomicBool;
+use std::time::Instant;
+
+use sha2::{Digest, Sha256};
+
+use crate::check;
+use crate::solver::{self, Problem, RunControl, RunStatus, SolveError};
+use crate::watch::{self, Attempt, Report, Status};
+use crate::workbook::parse::{self, InputProblem};
+use crate::workbook::read::{self, ReadError};
+use crate::workbook::write;
+
+/// Where and what to write.
+#[derive(Debug, Clone, Default)]
+pub struct Pipeline {
+    /// Write outputs here instead of beside the input.
+    pub out_dir: Option<PathBuf>,
+    /// Also write `<stem>.curves.csv` and `<stem>.profiles.csv`.
+    pub csv: bool,
+}
+
+/// The outcome of one file, with the problems for the command line to print.
+#[derive(Debug, Clone)]
+pub struct FileOutcome {
+    /// What happened.
+    pub report: Report,
+    /// Problems found in the input (when the status is [`Status::Problems`]).
+    pub problems: Vec<InputProblem>,
+    /// Wall-clock seconds.
+    pub seconds: f64,
+}
+
+fn file_stem(path: &Path) -> String {
+    path.file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| String::from("case"))
+}
+
+fn problem(sheet: &str, cell: &str, text: impl Into<String>) -> InputProblem {
+    InputProblem {
+        sheet: sheet.to_string(),
+        cell: cell.to_string(),
+        problem: text.into(),
+    }
+}
+
+/// Formats a problem as the command line prints it: `FILE: SHEET!CELL: problem`.
+pub fn problem_line(file: &Path, p: &InputProblem) -> String {
+    let place = match (p.sheet.is_empty(), p.cell.is_empty()) {
+        (true, _) => String::new(),
+        (false, true) => format!("{}: ", p.sheet),
+        (false, false) => format!("{}!{}: ", p.sheet, p.cell),
+    };
+    format!("{}: {}{}", file.display(), place, p.problem)
+}
+
+impl Pipeline {
+    fn output(&self, path: PathBuf) -> PathBuf {
+        match (&self.out_dir, path.file_name()) {
+            (Some(dir), Some(name)) => dir.join(name),
+            _ => path,
+        }
+    }
+
+    /// Runs one input file.
+    pub fn run_file(&self, input: &Path, attempt: Attempt, cancel: &AtomicBool) -> FileOutcome {
+        let started = Instant::now();
+        let (report, problems) = self.run_inner(input, attempt, cancel);
+        FileOutcome {
+            report,
+            problems,
+            seconds: started.elapsed().as_secs_f64(),
+        }
+    }
+
+    fn fail(&self, input: &Path, problems: Vec<InputProblem>) -> (Report, Vec<InputProblem>) {
+        let errors = self.output(watch::errors_path(input));
+        let detail = match write::errors_workbook(&problems)
+            .map_err(|e| e.to_string())
+            .and_then(|b| write::write_atomically(&errors, &b).map_err(|e| e.to_string()))
+        {
+            Ok(()) => format!("{} problem(s); see {}", problems.len(), errors.display()),
+            Err(e) => {
+                return (
+                    Report {
+                        status: Status::Failed,
+                        drying_time_h: None,
+                        detail: format!("could not write {}: {e}", errors.display()),
+                    },
+                    problems,
+                );
+            }
+        };
+        (
+            Report {
+                status: Status::Problems,
+                drying_time_h: None,
+                detail,
+            },
+            problems,
+        )
+    }
+
+    fn run_inner(
+        &self,
+        input: &Path,
+        attempt: Attempt,
+        cancel: &AtomicBool,
+    ) -> (Report, Vec<InputProblem>) {
+        let (book, bytes) = match read::read_file(input) {
+            Ok(ok) => ok,
+            Err(ReadError::Io { .. }) if attempt != Attempt::Final => {
+                return (not_ready("the file could not be read yet"), Vec::new());
+            }
+            Err(e @ ReadError::NotAWorkbook { .. }) if attempt != Attempt::Final => {
+                return (not_ready(&e.to_string()), Vec::new());
+            }
+            Err(e) => return self.fail(input, vec![problem("", "", e.to_string())]),
+        };
+        let sha = hex(&Sha256::digest(&bytes));
+        let parsed = match parse::parse(&book, &file_stem(input)) {
+            Ok(p) => p,
+            Err(problems) => return self.fail(input, problems),
+        };
+        let case = &parsed.case;
+        let problem_data = Problem::new(case);
+        let control = RunControl {
+            cancel: Some(cancel),
+            progress: None,
+        };
+        let run = match solver::run(&problem_data, &control) {
+            Ok(run) => run,
+            Err(SolveError::Cancelled { .. }) => {
+                return (
+                    Report {
+                        status: Status::Failed,
+                        drying_time_h: None,
+                        detail: String::from("cancelled; nothing written"),
+                    },
+                    Vec::new(),
+                );
+            }
+            Err(e) => {
+                return self.fail(
+                    input,
+                    vec![problem("", "", format!("the solver stopped: {e}"))],
+                );
+            }
+        };
+        let mut warnings = parsed.warnings.clone();
+        warnings.extend(run.warnings.iter().cloned());
+        let check = check::series_check(case, &run);
+        let bytes = write::result_workbook(&write::ResultInput {
+            case,
+            run: &run,
+            warnings: &warnings,
+            inputs: &parsed.inputs,
+            measured: &parsed.measured,
+            check: check.as_ref(),
+            input_sha256: &sha,
+        });
+        let result_path = self.output(watch::result_path(input));
+        let written = bytes
+            .map_err(|e| e.to_string())
+            .and_then(|b| write::write_atomically(&result_path, &b).map_err(|e| e.to_string()));
+        if let Err(e) = written {
+            return (
+                Report {
+                    status: Status::Failed,
+                    drying_time_h: None,
+                    detail: format!("could not write {}: {e}", result_path.display()),
+                },
+                Vec::new(),
+            );
+        }
+        if self.csv {
+            let stem = file_stem(input);
+            let dir = result_path
+                .parent()
+                .map(Path::to_path_buf)
+                .unwrap_or_default();
+            for (name, text) in [
+                (format!("{stem}.curves.csv"), write::curves_csv(case, &run)),
+                (
+                    format!("{stem}.profiles.csv"),
+                    write::profiles_csv(case, &run),
+                ),
+            ] {
+                if let Err(e) = write::write_atomically(&dir.join(&name), text.as_bytes()) {
+                    return (
+                        Report {
+                            status: Status::Failed,
+                            drying_time_h: None,
+                            detail: format!("could not write {name}: {e}"),
+                        },
+                        Vec::new(),
+                    );
+                }
+            }
+        }
+        // A stale errors workbook from an earlier failure no longer applies.
+        let errors = self.output(watch::errors_path(input));
+        if errors.exists() {
+            let _ = std::fs::remove_file(&errors);
+        }
+        let status = match run.status {
+            RunStatus::Ok => Status::Solved,
+            RunStatus::TargetNotReached => Status::TargetNotReached,
+        };
+        let hours = run.last().map_or(0.0, |l| l.time / 3600.0);
+        (
+            Report {
+                status,
+                drying_time_h: run.drying_time.map(|t| t / 3600.0),
+                detail: format!(
+                    "{} ({} steps, {:.3} h simulated)",
+                    result_path.display(),
+                    run.stats.accepted,
+                    hours
+                ),
+            },
+            Vec::new(),
+        )
+    }
+}
+
+fn not_ready(why: &str) -> Report {
+    Report {
+        status: Status::NotReady,
+        drying_time_h: None,
+        detail: why.to_string(),
+    }
+}
+
+fn hex(bytes: &[u8]) -> String {
+    bytes.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+impl watch::Processor for Pipeline {
+    fn process(&self, input: &Path, attempt: Attempt, cancel: &AtomicBool) -> Report {
+        let outcome = self.run_file(input, attempt, cancel);
+        for p in &outcome.problems {
+            tracing::warn!("{}", problem_line(input, p));
+        }
+        outcome.report
+    }
+}

@@ -1,0 +1,92 @@
+//! The commands `new` and `verify`, the committed templates and demo folder, and exit codes.
+
+mod support;
+
+use support::{keep_outputs, output_text, run_in, scratch};
+
+const KINDS: [&str; 4] = ["wood", "food", "clay", "blank"];
+
+#[test]
+fn committed_templates_equal_a_fresh_new_and_each_one_solves() {
+    let dir = scratch();
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    for kind in KINDS {
+        let file = format!("{kind}.xlsx");
+        let out = run_in(dir.path(), &["new", kind, &file]);
+        assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+        let fresh = std::fs::read(dir.path().join(&file)).expect("written");
+        let committed =
+            std::fs::read(root.join("templates").join(&file)).expect("committed template");
+        assert!(
+            fresh == committed,
+            "templates/{file} differs from `dampfront new {kind}`; regenerate it"
+        );
+        let out = run_in(dir.path(), &["solve", &file]);
+        assert_eq!(out.status.code(), Some(0), "{kind}: {}", output_text(&out));
+        assert!(dir.path().join(format!("{kind}.result.xlsx")).exists());
+    }
+    keep_outputs(dir.path(), "templates");
+}
+
+#[test]
+fn the_demo_folder_holds_the_wood_food_and_clay_templates() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    for (demo, kind) in [
+        ("wood-board", "wood"),
+        ("apple-slices", "food"),
+        ("clay-tile", "clay"),
+    ] {
+        let a = std::fs::read(root.join("inbox-demo").join(format!("{demo}.xlsx"))).expect("demo");
+        let b =
+            std::fs::read(root.join("templates").join(format!("{kind}.xlsx"))).expect("template");
+        assert!(
+            a == b,
+            "inbox-demo/{demo}.xlsx differs from templates/{kind}.xlsx"
+        );
+    }
+}
+
+#[test]
+fn new_writes_csv_too_and_never_overwrites() {
+    let dir = scratch();
+    let out = run_in(dir.path(), &["new", "food", "apple.csv"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    let text = std::fs::read_to_string(dir.path().join("apple.csv")).expect("csv");
+    assert!(text.starts_with("[case]\n"));
+    let out = run_in(dir.path(), &["solve", "apple.csv"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    let before = std::fs::read(dir.path().join("apple.csv")).expect("csv");
+    let out = run_in(dir.path(), &["new", "wood", "apple.csv"]);
+    assert_eq!(out.status.code(), Some(2), "{}", output_text(&out));
+    assert_eq!(
+        std::fs::read(dir.path().join("apple.csv")).expect("csv"),
+        before
+    );
+    let out = run_in(dir.path(), &["new", "cheese", "x.xlsx"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(!dir.path().join("x.xlsx").exists());
+}
+
+#[test]
+fn verify_prints_a_passing_table() {
+    let dir = scratch();
+    let out = run_in(dir.path(), &["verify"]);
+    let text = output_text(&out);
+    assert_eq!(out.status.code(), Some(0), "{text}");
+    assert!(text.contains("16 of 16 checks passed"), "{text}");
+    assert!(text.contains("sphere, biot 100, 40 cells"), "{text}");
+}
+
+#[test]
+fn usage_errors_exit_with_2() {
+    let dir = scratch();
+    assert_eq!(run_in(dir.path(), &["frobnicate"]).status.code(), Some(2));
+    assert_eq!(run_in(dir.path(), &["solve"]).status.code(), Some(2));
+    assert_eq!(
+        run_in(dir.path(), &["batch", "x", "--shard", "4/3"])
+            .status
+            .code(),
+        Some(2)
+    );
+    assert_eq!(run_in(dir.path(), &["--help"]).status.code(), Some(0));
+}
