@@ -191,7 +191,11 @@ fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<O
         std::fs::create_dir_all(dir)
             .with_context(|| format!("could not create the output folder {}", dir.display()))?;
     }
-    let pipeline = Pipeline { out_dir: out, csv };
+    let pipeline = Pipeline {
+        out_dir: out,
+        csv,
+        progress: io::stderr().is_terminal(),
+    };
     let cancel = AtomicBool::new(false);
     let mut outcome = Outcome::Ok;
     let mut system_error = None;

@@ -5,6 +5,7 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 use std::time::Instant;
 
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use sha2::{Digest, Sha256};
 
 use crate::check;
@@ -21,6 +22,8 @@ pub struct Pipeline {
     pub out_dir: Option<PathBuf>,
     /// Also write `<stem>.curves.csv` and `<stem>.profiles.csv`.
     pub csv: bool,
+    /// Show a progress bar on standard error for runs longer than a second.
+    pub progress: bool,
 }
 
 /// The outcome of one file, with the problems for the command line to print.
@@ -128,11 +131,28 @@ impl Pipeline {
         };
         let case = &parsed.case;
         let problem_data = Problem::new(case);
+        let bar = ProgressBar::hidden();
+        bar.set_length(1000);
+        bar.set_style(
+            ProgressStyle::with_template("{msg} [{bar:30}] {percent}% of end time")
+                .unwrap_or_else(|_| ProgressStyle::default_bar()),
+        );
+        bar.set_message(input.display().to_string());
+        let started = Instant::now();
+        let show = |fraction: f64| {
+            // Only runs longer than a second get a bar; short ones would just flicker.
+            if bar.is_hidden() && started.elapsed().as_secs_f64() > 1.0 {
+                bar.set_draw_target(ProgressDrawTarget::stderr());
+            }
+            bar.set_position((fraction.clamp(0.0, 1.0) * 1000.0) as u64);
+        };
         let control = RunControl {
             cancel: Some(cancel),
-            progress: None,
+            progress: self.progress.then_some(&show as &dyn Fn(f64)),
         };
-        let run = match solver::run(&problem_data, &control) {
+        let solved = solver::run(&problem_data, &control);
+        bar.finish_and_clear();
+        let run = match solved {
             Ok(run) => run,
             Err(SolveError::Cancelled { .. }) => {
                 return (
