@@ -386,6 +386,17 @@ fn formula_without_cached_value_is_a_problem_at_its_cell() {
 }
 
 #[test]
+fn spreadsheet_error_values_are_problems_at_their_cell() {
+    let mut s = minimal_case();
+    set(&mut s, "layers", 1, 2, C::F("=1/0", "#DIV/0!"));
+    let problems = problems(&s);
+    assert_eq!(
+        at(&problems, "layers", "C2").problem,
+        "expected a number of %, found #DIV/0!"
+    );
+}
+
+#[test]
 fn profile_hours_accept_commas_semicolons_or_one_number() {
     let mut s = minimal_case();
     set(&mut s, "case", 0, 0, C::T("profile_hours"));
