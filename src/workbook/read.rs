@@ -192,7 +192,8 @@ fn diagnose(bytes: &[u8]) -> ReadError {
     }
     if bytes.starts_with(OLE) {
         return not_a_workbook(
-            "an OLE container (the old .xls form) that holds no readable workbook, or a damaged one",
+            "an OLE container (the old .xls form, or a password-protected workbook) that holds no \
+             readable workbook",
         );
     }
     let looks_like_text = bytes
@@ -367,6 +368,14 @@ mod tests {
         assert!(e.to_string().contains("empty"));
         let e = read_bytes(b"hello, world\n", "XLSX").unwrap_err();
         assert!(e.to_string().contains("plain text"), "{e}");
+    }
+
+    #[test]
+    fn damaged_ole_container_is_not_a_workbook() {
+        let mut bytes = vec![0xD0, 0xCF, 0x11, 0xE0, 0xA1, 0xB1, 0x1A, 0xE1];
+        bytes.resize(1024, 0);
+        let e = read_bytes(&bytes, "xls").unwrap_err();
+        assert!(e.to_string().contains("OLE container"), "{e}");
     }
 
     #[test]

@@ -6,6 +6,7 @@ use std::collections::HashSet;
 use super::{InputRecord, InputValue};
 use crate::case::{MoistureBasis, Place};
 use crate::workbook::raw::RawValue;
+use crate::workbook::read::NO_CACHED_VALUE;
 
 /// Marks a value whose problem has already been recorded.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -114,6 +115,17 @@ pub(super) fn parse_number_text(s: &str) -> Option<f64> {
         return None;
     }
     t.parse::<f64>().ok().filter(|x| x.is_finite())
+}
+
+/// What a message says was found: the value, and for a formula without a result how to get
+/// one.
+fn found(v: &RawValue) -> String {
+    match v {
+        RawValue::Error(e) if e == NO_CACHED_VALUE => format!(
+            "{e} (open the file in a spreadsheet program and save it, so the result is stored)"
+        ),
+        _ => v.describe(),
+    }
 }
 
 /// A number as a message shows it.
@@ -284,7 +296,7 @@ impl Ctx {
                 self.problem(
                     at,
                     place,
-                    format!("expected {}, found {}", unit.expected(), v.describe()),
+                    format!("expected {}, found {}", unit.expected(), found(v)),
                 );
                 Err(Bad)
             }
@@ -321,7 +333,7 @@ impl Ctx {
             RawValue::Number(x) => Ok(Some(show(*x))),
             RawValue::Bool(_) => Ok(Some(v.describe())),
             RawValue::Error(_) => {
-                self.problem(at, place, format!("expected text, found {}", v.describe()));
+                self.problem(at, place, format!("expected text, found {}", found(v)));
                 Err(Bad)
             }
             RawValue::Empty => Ok(None),

@@ -189,6 +189,8 @@ pub(super) struct Table<'b> {
     /// Column of the header's first cell, where row-level messages point.
     first_col: u32,
     columns: HashMap<&'static str, u32>,
+    /// Header names that matched no known column, as written (for hints on missing ones).
+    unknown: Vec<String>,
     pub rows: Vec<&'b RawRow>,
 }
 
@@ -207,6 +209,7 @@ impl<'b> Table<'b> {
             header_row: None,
             first_col: 0,
             columns: HashMap::new(),
+            unknown: Vec::new(),
             rows: Vec::new(),
         };
         let Some(sheet) = found.sheet else {
@@ -247,14 +250,17 @@ impl<'b> Table<'b> {
                         table.columns.insert(k, *col);
                     }
                 }
-                None => ctx.warn(
-                    &at,
-                    format!(
-                        "unknown column {}; it was ignored (known columns: {})",
-                        v.describe(),
-                        known.join(", ")
-                    ),
-                ),
+                None => {
+                    table.unknown.push(v.describe());
+                    ctx.warn(
+                        &at,
+                        format!(
+                            "unknown column {}; it was ignored (known columns: {})",
+                            v.describe(),
+                            known.join(", ")
+                        ),
+                    )
+                }
             }
         }
         let mut warned_unheaded: Vec<u32> = Vec::new();
@@ -317,13 +323,23 @@ impl<'b> Table<'b> {
         for column in required {
             if !self.has(column) {
                 let row = self.header_row.map_or(1, |r| r + 1);
+                let hint = if self.unknown.is_empty() {
+                    String::new()
+                } else {
+                    format!(
+                        "; the header's unknown columns are {}",
+                        self.unknown.join(", ")
+                    )
+                };
                 ctx.problem(
                     &Loc {
                         order: (self.order, self.header_row.unwrap_or(0), 0),
                         ..self.whole.clone()
                     },
                     None,
-                    format!("the header (row {row}) has no column {column}, which is required"),
+                    format!(
+                        "the header (row {row}) has no column {column}, which is required{hint}"
+                    ),
                 );
                 ctx.poison_column(kind, column);
             }
