@@ -224,3 +224,51 @@ fn solve_writes_csv_tables_and_into_an_out_folder() {
     );
     let _ = V::E;
 }
+
+#[test]
+fn measured_points_are_compared_with_the_model_on_the_fit_sheet() {
+    use dampfront::analytic::{Series, Shape, Surface};
+    // "Measurements" taken from Crank's plane-sheet series (eq. 4.18, p. 48) for the same slab:
+    // l = 6 mm, D = 5e-10 m2/s, so T = D t / l^2 = 0.05 per hour; 60 % falling to 10 %.
+    let series = Series::new(Shape::Slab, Surface::Fixed);
+    let hours = [1.0, 2.0, 4.0, 8.0];
+    let measured: Vec<f64> = hours
+        .iter()
+        .map(|h| 10.0 + 50.0 * series.moisture_ratio(0.05 * h))
+        .collect();
+    let mut sheets = books::series_case("measured");
+    let leaked: &'static [f64] = Box::leak(measured.clone().into_boxed_slice());
+    let mut rows = vec![vec![V::T("hours"), V::T("moisture_pct")]];
+    for (h, m) in hours.iter().zip(leaked) {
+        rows.push(vec![V::N(*h), V::N(*m)]);
+    }
+    sheets.push(("measured", rows));
+    let dir = scratch();
+    books::write_xlsx(&dir.path().join("m.xlsx"), &sheets);
+    let out = run_in(dir.path(), &["solve", "m.xlsx"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    keep_outputs(dir.path(), "measured");
+    let fit = sheet(&dir.path().join("m.result.xlsx"), "fit");
+    let rows: Vec<&[Data]> = fit.rows().collect();
+    let header: Vec<String> = rows[0].iter().map(text).collect();
+    assert_eq!(
+        &header[..5],
+        &["parameter", "estimate", "low_95", "high_95", "unit"]
+    );
+    let table = rows
+        .iter()
+        .position(|r| text(&r[0]) == "hours")
+        .expect("comparison table");
+    for (i, m) in measured.iter().enumerate() {
+        let r = rows[table + 1 + i];
+        assert!((num(&r[1]) - m).abs() < 1e-12);
+        // Model and series agree to the engine's default-mesh accuracy (1e-3 in moisture ratio).
+        assert!((num(&r[2]) - m).abs() < 50.0 * 1e-3, "row {i}");
+    }
+    let rmse = rows
+        .iter()
+        .find(|r| r.len() > 7 && text(&r[6]) == "rmse_pct")
+        .map(|r| num(&r[7]))
+        .expect("rmse");
+    assert!(rmse < 0.05, "rmse {rmse}");
+}

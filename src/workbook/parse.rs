@@ -226,8 +226,25 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
         schedule: &schedule_t,
         sheet: |name| sheet_loc(name, get(name)),
     };
+    // A material whose row already failed (e.g. a missing isotherm parameter) stands in as
+    // a placeholder; what validate says about layers *using* it only restates that problem.
+    let material_failed = ctx
+        .problems
+        .iter()
+        .any(|(l, _)| l.sheet.eq_ignore_ascii_case("materials"));
     for p in case.validate() {
         if ctx.suppressed(&p.place) {
+            continue;
+        }
+        if material_failed
+            && matches!(
+                p.place,
+                crate::case::Place::Layer {
+                    column: "material",
+                    ..
+                }
+            )
+        {
             continue;
         }
         let at = places.locate(&p.place, &p.message);

@@ -112,6 +112,9 @@ pub fn result_workbook(r: &ResultInput<'_>) -> Result<Vec<u8>, XlsxError> {
     summary_sheet(wb.add_worksheet(), r, &f)?;
     curves_sheet(&mut wb, r, &f)?;
     profiles_sheet(&mut wb, r, &f)?;
+    if !r.measured.is_empty() {
+        fit_sheet(wb.add_worksheet(), r, &f)?;
+    }
     if let Some(check) = r.check {
         check_sheet(wb.add_worksheet(), r.case, check, &f)?;
     }
@@ -436,6 +439,102 @@ fn check_sheet(
             None => {
                 ws.write_string(r, col + 1, &note)?;
             }
+        }
+    }
+    Ok(())
+}
+
+/// The model's mean moisture (basis %) at `hours`, by linear interpolation between curve rows.
+fn model_mean_at(case: &Case, run: &RunResult, hours: f64) -> Option<f64> {
+    let t = hours * 3600.0;
+    let rows = &run.curves;
+    let j = rows.partition_point(|r| r.time < t);
+    let value = if j < rows.len() && (rows[j].time - t).abs() <= 1e-9 * t.max(1.0) {
+        rows[j].mean
+    } else if j == 0 || j == rows.len() {
+        return None;
+    } else {
+        let (a, b) = (&rows[j - 1], &rows[j]);
+        a.mean + (b.mean - a.mean) * (t - a.time) / (b.time - a.time)
+    };
+    Some(pct(case, value))
+}
+
+/// The `fit` sheet: the parameter table (no parameter is estimated in this version), then the
+/// model against the measured points with goodness-of-fit figures.
+fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
+    ws.set_name("fit")?;
+    let names = |v: &[&str]| v.iter().map(|s| s.to_string()).collect::<Vec<_>>();
+    header_row(
+        ws,
+        0,
+        &names(&["parameter", "estimate", "low_95", "high_95", "unit"]),
+        f,
+    )?;
+    let mut row = 2;
+    ws.write_string(
+        row,
+        0,
+        "No parameter is estimated in this version; below, the model against the measured points.",
+    )?;
+    row += 2;
+    let start = row;
+    for (c, h) in [
+        "hours",
+        "measured_moisture_pct",
+        "model_moisture_pct",
+        "residual_pct",
+    ]
+    .iter()
+    .enumerate()
+    {
+        ws.write_string_with_format(row, c as u16, *h, &f.header)?;
+    }
+    let mut residuals = Vec::new();
+    let mut measured_values = Vec::new();
+    for m in r.measured {
+        row += 1;
+        ws.write_number_with_format(row, 0, m.hours, &f.hours)?;
+        ws.write_number_with_format(row, 1, m.moisture_pct, &f.number)?;
+        let model = model_mean_at(r.case, r.run, m.hours);
+        opt_number(ws, row, 2, model, &f.number)?;
+        if let Some(model) = model {
+            ws.write_number_with_format(row, 3, model - m.moisture_pct, &f.number)?;
+            residuals.push(model - m.moisture_pct);
+            measured_values.push(m.moisture_pct);
+        }
+    }
+    let n = residuals.len();
+    if n > 0 {
+        let nf = n as f64;
+        let sse: f64 = residuals.iter().map(|e| e * e).sum();
+        let mean = measured_values.iter().sum::<f64>() / nf;
+        let sst: f64 = measured_values
+            .iter()
+            .map(|v| (v - mean) * (v - mean))
+            .sum();
+        let stats: [(&str, Option<f64>, &str); 4] = [
+            ("points_compared", Some(nf), ""),
+            ("rmse_pct", Some((sse / nf).sqrt()), basis_unit(r.case)),
+            (
+                "bias_pct",
+                Some(residuals.iter().sum::<f64>() / nf),
+                "model - measured",
+            ),
+            (
+                "r_squared",
+                (sst > 0.0).then(|| 1.0 - sse / sst),
+                "1 - SSE/SST",
+            ),
+        ];
+        let col = 6;
+        ws.write_string_with_format(start, col, "goodness_of_fit", &f.header)?;
+        ws.set_column_width(col, 20)?;
+        for (i, (key, value, unit)) in stats.into_iter().enumerate() {
+            let rr = start + 1 + i as u32;
+            ws.write_string(rr, col, key)?;
+            opt_number(ws, rr, col + 1, value, &f.number)?;
+            ws.write_string(rr, col + 2, unit)?;
         }
     }
     Ok(())
