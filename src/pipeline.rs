@@ -122,6 +122,18 @@ impl Pipeline {
             Err(e @ ReadError::NotAWorkbook { .. }) if attempt != Attempt::Final => {
                 return (not_ready(&e.to_string()), Vec::new());
             }
+            // A file that is missing or unreadable is a system error, not a problem of the
+            // input's content: nothing is written beside it.
+            Err(e @ ReadError::Io { .. }) => {
+                return (
+                    Report {
+                        status: Status::Failed,
+                        drying_time_h: None,
+                        detail: e.to_string(),
+                    },
+                    Vec::new(),
+                );
+            }
             Err(e) => return self.fail(input, vec![problem("", "", e.to_string())]),
         };
         let sha = hex(&Sha256::digest(&bytes));

@@ -90,3 +90,12 @@ fn usage_errors_exit_with_2() {
     );
     assert_eq!(run_in(dir.path(), &["--help"]).status.code(), Some(0));
 }
+
+#[test]
+fn a_missing_input_is_a_system_error_and_writes_nothing() {
+    let dir = scratch();
+    let out = run_in(dir.path(), &["solve", "nowhere.xlsx"]);
+    assert_eq!(out.status.code(), Some(2), "{}", output_text(&out));
+    assert!(output_text(&out).contains("nowhere.xlsx"));
+    assert_eq!(std::fs::read_dir(dir.path()).expect("dir").count(), 0);
+}
