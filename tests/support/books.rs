@@ -257,3 +257,12 @@ pub fn rich_case() -> Vec<Sheet> {
         ),
     ]
 }
+
+/// [`series_case`] on a fine mesh with a tight step tolerance, so that one run takes seconds
+/// (about 3 s for 1500 cells at 1e-7 on one core of the development machine).
+pub fn slow_case(title: &'static str, cells: f64, tolerance: f64) -> Vec<Sheet> {
+    let mut sheets = series_case(title);
+    sheets[0].1.push(vec![V::T("cells_per_layer"), V::N(cells)]);
+    sheets[0].1.push(vec![V::T("tolerance"), V::N(tolerance)]);
+    sheets
+}
