@@ -60,15 +60,7 @@ fn applicable(case: &Case) -> Option<(Series, f64, f64, Option<f64>, f64, String
         (Geometry::Cylinder, _) => (Shape::Cylinder, layer.thickness),
         (Geometry::Sphere, _) => (Shape::Sphere, layer.thickness),
     };
-    let rh = match step.humidity {
-        Humidity::Relative(rh) => Some(rh),
-        Humidity::WetBulb(tw) => Some(crate::physics::psychro::rh_from_wet_bulb(
-            step.dry_bulb_c,
-            tw,
-            crate::physics::STANDARD_PRESSURE_PA,
-        )),
-        Humidity::Unspecified => None,
-    };
+    let rh = step.relative_humidity();
     let (surface, x_eq, biot) = match step.exchange {
         Exchange::FixedSurface(x) => (Surface::Fixed, x, None),
         Exchange::SurfaceCoefficient(beta) => {

@@ -320,6 +320,20 @@ impl Material {
 }
 
 impl Step {
+    /// The air's relative humidity (fraction), from `rh_pct` or from the wet bulb at standard
+    /// pressure; `None` where no humidity is given.
+    pub fn relative_humidity(&self) -> Option<f64> {
+        match self.humidity {
+            Humidity::Unspecified => None,
+            Humidity::Relative(rh) => Some(rh),
+            Humidity::WetBulb(tw) => Some(crate::physics::psychro::rh_from_wet_bulb(
+                self.dry_bulb_c,
+                tw,
+                crate::physics::STANDARD_PRESSURE_PA,
+            )),
+        }
+    }
+
     /// A step with the given exchange at constant air, running to the end.
     pub fn constant(dry_bulb_c: f64, humidity: Humidity, exchange: Exchange) -> Step {
         Step {

@@ -1,7 +1,7 @@
 //! The discrete problem: a mesh, per-cell properties and a schedule whose surface conditions can
 //! be evaluated at any time. Built once from a [`Case`] and then only borrowed.
 
-use crate::case::{Case, Exchange, Humidity, Step};
+use crate::case::{Case, Exchange, Step};
 use crate::physics::{self, Diffusivity, Isotherm};
 
 use super::mesh::{Mesh, Refine};
@@ -404,18 +404,9 @@ pub fn saturated_vapour_density(t_c: f64) -> f64 {
 }
 
 fn air_of(step: &Step) -> Air {
-    let rh = match step.humidity {
-        Humidity::Unspecified => None,
-        Humidity::Relative(rh) => Some(rh),
-        Humidity::WetBulb(tw) => Some(physics::psychro::rh_from_wet_bulb(
-            step.dry_bulb_c,
-            tw,
-            physics::STANDARD_PRESSURE_PA,
-        )),
-    };
     Air {
         dry_bulb_c: step.dry_bulb_c,
-        rh,
+        rh: step.relative_humidity(),
     }
 }
 
