@@ -98,6 +98,16 @@ impl Checker {
         }
     }
 
+    /// Requires `lo <= value <= hi` (a finite value outside is named with the range).
+    fn within(&mut self, place: Place, what: &str, value: f64, lo: f64, hi: f64, unit: &str) {
+        if value.is_finite() && value > 0.0 && !(lo..=hi).contains(&value) {
+            self.push(
+                place,
+                format!("{what} {value} is outside the plausible range {lo} to {hi} {unit}"),
+            );
+        }
+    }
+
     fn finite(&mut self, place: Place, what: &str, value: f64) {
         if !value.is_finite() {
             self.push(
@@ -198,8 +208,19 @@ fn check_materials(case: &Case, c: &mut Checker) {
     for (i, m) in case.materials.iter().enumerate() {
         let at = |column| Place::Material { index: i, column };
         c.positive(at("dry_density_kg_m3"), "dry_density_kg_m3", m.dry_density);
+        // Plausibility ranges (common practice): lighter than aerogel or denser than osmium,
+        // or a moisture diffusivity beyond that of vapour in air, is a units mistake.
+        c.within(
+            at("dry_density_kg_m3"),
+            "dry_density_kg_m3",
+            m.dry_density,
+            1.0,
+            25_000.0,
+            "kg/m3",
+        );
         let d = &m.diffusivity;
         c.positive(at("d_ref_m2_s"), "d_ref_m2_s", d.d_ref);
+        c.within(at("d_ref_m2_s"), "d_ref_m2_s", d.d_ref, 1e-20, 1e-4, "m2/s");
         if d.t_ref_c.is_finite() && d.t_ref_c <= -273.15 {
             c.push(
                 at("d_ref_temp_c"),
@@ -246,6 +267,14 @@ fn check_layers(case: &Case, c: &mut Checker) {
             );
         }
         c.positive(at("thickness_mm"), "thickness_mm", l.thickness);
+        c.within(
+            at("thickness_mm"),
+            "thickness (m)",
+            l.thickness,
+            1e-6,
+            10.0,
+            "m",
+        );
         c.non_negative(
             at("initial_moisture_pct"),
             "initial_moisture_pct",

@@ -148,11 +148,13 @@ impl Isotherm {
         match *self {
             Isotherm::None | Isotherm::Wood => {}
             Isotherm::Gab { xm, c, k } => {
+                // A monolayer above 1 kg/kg (100 % dry basis) is a units mistake (percent typed
+                // where a fraction belongs); foods and wood lie near 0.02-0.3 (common practice).
                 need(
-                    xm.is_finite() && xm > 0.0,
+                    xm.is_finite() && xm > 0.0 && xm <= 1.0,
                     "GAB monolayer moisture Xm (iso_a)",
                     xm,
-                    "a finite number greater than 0",
+                    "a dry-basis fraction greater than 0 and at most 1",
                 );
                 need(
                     c.is_finite() && c > 0.0,
@@ -169,10 +171,10 @@ impl Isotherm {
             }
             Isotherm::Oswin { a, b } => {
                 need(
-                    a.is_finite() && a > 0.0,
+                    a.is_finite() && a > 0.0 && a <= 5.0,
                     "Oswin constant a (iso_a)",
                     a,
-                    "a finite number greater than 0",
+                    "a dry-basis fraction greater than 0 and at most 5",
                 );
                 need(
                     b.is_finite() && b > 0.0,

@@ -346,6 +346,7 @@ pub fn backward_euler(
     let limit = NEWTON_TOLERANCE * problem.moisture_scale;
     let floor = NEWTON_FLOOR * problem.moisture_scale;
     let mut previous = f64::INFINITY;
+    let mut backtracks = 0;
     for iteration in 0..=MAX_NEWTON {
         let surfaces = evaluate_faces(problem, laws, t_c, new, ws);
         let mut worst: f64 = 0.0;
@@ -355,16 +356,29 @@ pub fn backward_euler(
             worst = worst.max((r / mass[i]).abs());
             ws.rhs[i] = -r;
         }
-        if !worst.is_finite() {
-            return Err(NewtonFailure::Breakdown);
-        }
-        if worst <= limit || (worst <= floor && worst > 0.1 * previous) {
+        let converged = worst <= limit || (worst <= floor && worst > 0.1 * previous);
+        if converged && worst.is_finite() {
             return Ok((surfaces, iteration));
         }
-        previous = worst;
         if iteration == MAX_NEWTON {
             break;
         }
+        // An update that made things worse (or not finite) is halved, a few times at most:
+        // strongly nonlinear isotherms can overshoot a full Newton step.
+        let improved = worst < previous;
+        if iteration > 0 && !improved && backtracks < 4 {
+            for (x, d) in new.iter_mut().zip(ws.delta.iter_mut()) {
+                *d *= 0.5;
+                *x -= *d;
+            }
+            backtracks += 1;
+            continue;
+        }
+        if !worst.is_finite() {
+            return Err(NewtonFailure::Breakdown);
+        }
+        previous = worst;
+        backtracks = 0;
         for i in 0..n {
             ws.lower[i] = -dt * areas[i] * ws.d_left[i];
             ws.diag[i] =
@@ -374,8 +388,9 @@ pub fn backward_euler(
         if !tridiag::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
             return Err(NewtonFailure::Breakdown);
         }
-        for (x, d) in new.iter_mut().zip(&ws.rhs) {
-            *x += d;
+        for ((x, d), r) in new.iter_mut().zip(ws.delta.iter_mut()).zip(&ws.rhs) {
+            *d = *r;
+            *x += r;
         }
         ws.linear_solves += 1;
     }

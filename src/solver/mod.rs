@@ -36,6 +36,17 @@ pub enum SolveError {
         /// The step that failed, s.
         dt: f64,
     },
+    /// The run took more step attempts than any ordinary case needs.
+    #[error(
+        "the run needed more than {steps} time steps and stopped at {hours:.4} h; the case is \
+         extremely stiff (check isotherm parameters, diffusivity and surface values)"
+    )]
+    TooManySteps {
+        /// Time reached, h.
+        hours: f64,
+        /// Step attempts made.
+        steps: u64,
+    },
     /// Newton's method failed where it had succeeded before.
     #[error("Newton iterations failed at {hours:.4} h")]
     NewtonFailed {

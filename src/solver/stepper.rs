@@ -114,6 +114,14 @@ const LANDING_MARGIN: f64 = 1e-3;
 /// The smallest step, relative to the run length, before the stepper gives up.
 const MIN_STEP_FRACTION: f64 = 1e-14;
 
+/// Step attempts (accepted and rejected) after which a run is given up: ordinary runs take a
+/// few thousand, so this only stops a case that crawls without failing outright.
+pub const MAX_ATTEMPTS: u64 = 2_000_000;
+
+/// After Newton fails at dt, steps stay below half of it and may grow back by this factor per
+/// accepted step, instead of bouncing between a cut of 4 and a growth of 4.
+const NEWTON_CAP_GROWTH: f64 = 1.5;
+
 /// Trial states of one step.
 #[derive(Debug, Clone)]
 struct Trial {
@@ -139,6 +147,7 @@ pub struct Stepper<'p> {
     controller: Controller,
     stats: Stats,
     outflow: f64,
+    newton_cap: f64,
 }
 
 impl<'p> Stepper<'p> {
@@ -164,6 +173,7 @@ impl<'p> Stepper<'p> {
             controller: Controller::default(),
             stats: Stats::default(),
             outflow: 0.0,
+            newton_cap: f64::INFINITY,
         };
         s.restart_step_size();
         s
@@ -267,6 +277,7 @@ impl<'p> Stepper<'p> {
             p.end_time
         };
         self.dt = cell_time.min(p.end_time * 1e-3).max(p.end_time * 1e-12);
+        self.newton_cap = f64::INFINITY;
     }
 
     /// One backward-Euler solve from `old` at `t` over `dt`; returns the outflow integral.
@@ -320,9 +331,17 @@ impl<'p> Stepper<'p> {
         self.t += dt;
         self.outflow += outflow;
         self.stats.accepted += 1;
+        self.newton_cap *= NEWTON_CAP_GROWTH;
     }
 
     fn check_step(&self, dt: f64) -> Result<(), SolveError> {
+        let attempts = self.stats.accepted + self.stats.rejected + self.stats.newton_failures;
+        if attempts >= MAX_ATTEMPTS {
+            return Err(SolveError::TooManySteps {
+                hours: self.t / 3600.0,
+                steps: attempts,
+            });
+        }
         if dt < self.problem.end_time * MIN_STEP_FRACTION || !dt.is_finite() {
             return Err(SolveError::StepTooSmall {
                 hours: self.t / 3600.0,
@@ -360,6 +379,7 @@ impl<'p> Stepper<'p> {
         }
         loop {
             let remaining = self.stop_time - self.t;
+            self.dt = self.dt.min(self.newton_cap);
             let lands = self.dt >= remaining * (1.0 - LANDING_MARGIN);
             let dt = if lands { remaining } else { self.dt };
             self.check_step(dt)?;
@@ -368,6 +388,7 @@ impl<'p> Stepper<'p> {
                 Err(_) => {
                     self.stats.newton_failures += 1;
                     self.dt = 0.25 * dt;
+                    self.newton_cap = 0.5 * dt;
                     continue;
                 }
             };

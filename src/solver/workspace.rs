@@ -20,6 +20,8 @@ pub struct Workspace {
     pub rhs: Vec<f64>,
     /// Thomas algorithm scratch, n.
     pub scratch: Vec<f64>,
+    /// The last Newton update, n (kept for backtracking).
+    pub delta: Vec<f64>,
     /// Linear solves done (counted here because the Newton loop owns them).
     pub linear_solves: u64,
 }
@@ -36,6 +38,7 @@ impl Workspace {
             upper: vec![0.0; n],
             rhs: vec![0.0; n],
             scratch: vec![0.0; n],
+            delta: vec![0.0; n],
             linear_solves: 0,
         }
     }
