@@ -175,6 +175,14 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.progress = io::stderr().is_terminal();
             let summary = watch::batch(&opts, Arc::new(Pipeline::default()))?;
             print(&summary.to_string())?;
+            let interrupted = summary
+                .skipped
+                .iter()
+                .filter(|s| s.reason == watch::SkipReason::Interrupted)
+                .count();
+            if interrupted > 0 {
+                bail!("the pass was interrupted by a signal; {interrupted} input(s) were not run");
+            }
             Ok(if summary.any_problems() {
                 Outcome::Problems
             } else {

@@ -99,3 +99,48 @@ fn a_missing_input_is_a_system_error_and_writes_nothing() {
     assert!(output_text(&out).contains("nowhere.xlsx"));
     assert_eq!(std::fs::read_dir(dir.path()).expect("dir").count(), 0);
 }
+
+#[test]
+fn an_interrupted_batch_exits_2_and_says_what_was_not_run() {
+    let dir = scratch();
+    for i in 0..3 {
+        support::books::write_xlsx(
+            &dir.path().join(format!("slow-{i}.xlsx")),
+            &support::books::slow_case("slow", 1500.0, 1e-7),
+        );
+    }
+    let child = support::bin()
+        .current_dir(dir.path())
+        .args(["batch", ".", "--jobs", "1"])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("starts");
+    let deadline = std::time::Instant::now() + std::time::Duration::from_secs(60);
+    while !std::fs::read_dir(dir.path())
+        .expect("dir")
+        .flatten()
+        .any(|e| e.file_name().to_string_lossy().ends_with(".lock"))
+    {
+        assert!(std::time::Instant::now() < deadline, "no run started");
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    let pid = child.id().to_string();
+    let status = std::process::Command::new("kill")
+        .args(["-TERM", &pid])
+        .status()
+        .expect("kill runs");
+    assert!(status.success());
+    let out = child.wait_with_output().expect("exits");
+    let text = output_text(&out);
+    assert_eq!(out.status.code(), Some(2), "{text}");
+    assert!(text.contains("interrupted"), "{text}");
+    // Nothing half-written: no lock and no temporary file is left.
+    for e in std::fs::read_dir(dir.path()).expect("dir").flatten() {
+        let name = e.file_name().to_string_lossy().into_owned();
+        assert!(
+            !name.ends_with(".lock") && !name.starts_with(".dampfront-"),
+            "{name} left"
+        );
+    }
+}

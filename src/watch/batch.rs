@@ -168,9 +168,10 @@ pub fn batch(
     let stop = Arc::new(AtomicBool::new(false));
     let mut ids = Vec::new();
     for signal in [SIGINT, SIGTERM] {
-        // The first signal sets the flag; with the flag already set, the second exits.
+        // The first signal sets the flag; with the flag already set, the second exits at once
+        // with code 2 (a system stop: not every input ran).
         ids.push(
-            signal_hook::flag::register_conditional_shutdown(signal, 130, Arc::clone(&stop))
+            signal_hook::flag::register_conditional_shutdown(signal, 2, Arc::clone(&stop))
                 .map_err(WatchError::Signals)?,
         );
         ids.push(
