@@ -14,6 +14,8 @@
 //! value that already failed to read is not repeated.
 
 mod build;
+
+pub(crate) use build::MATERIAL_COLUMNS;
 mod context;
 mod sheets;
 
@@ -138,7 +140,7 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
 
     missing_sheet("case", get("case"), book, &mut ctx);
     let keys = KeySheet::read("case", get("case"), build::CASE_KEYS, &mut ctx);
-    let settings = build::settings(&keys, &mut ctx, default_title);
+    let case = build::settings(&keys, &mut ctx, default_title);
 
     missing_sheet("materials", get("materials"), book, &mut ctx);
     let materials_t = Table::read(
@@ -174,7 +176,7 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
         &mut ctx,
     );
     schedule_t.require(&["dry_bulb_c"], 4, &mut ctx);
-    let schedule = build::schedule(&schedule_t, &mut ctx, settings.exposed);
+    let schedule = build::schedule(&schedule_t, &mut ctx, case.exposed);
 
     let measured_t = Table::read(
         "measured",
@@ -202,21 +204,10 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
     }
 
     let case = Case {
-        title: settings.title,
-        geometry: settings.geometry,
-        exposed: settings.exposed,
-        coupling: settings.coupling,
-        basis: settings.basis,
-        cells_per_layer: settings.cells_per_layer,
-        end_time: settings.end_time,
-        target_moisture: settings.target_moisture,
-        output_every: settings.output_every,
-        profile_times: settings.profile_times,
-        flow_length: settings.flow_length,
-        tolerance: settings.tolerance,
         layers,
         materials,
         schedule,
+        ..case
     };
 
     let places = Places {

@@ -150,20 +150,16 @@ fn t(v: &str) -> Cell {
     Cell::from(v)
 }
 
-const MATERIAL_HEADERS: [&str; 11] = [
-    "material",
-    "dry_density_kg_m3",
-    "d_ref_m2_s",
-    "d_ref_temp_c",
-    "d_ref_moisture_pct",
-    "activation_energy_kj_mol",
-    "moisture_coef",
-    "isotherm",
-    "iso_a",
-    "iso_b",
-    "iso_c",
-];
-
+/// The `materials` columns of an isothermal case: the format's list up to `iso_c`, leaving out
+/// the coupled-run columns (conductivity, specific heat).
+fn material_headers() -> &'static [&'static str] {
+    let columns = super::parse::MATERIAL_COLUMNS;
+    let end = columns
+        .iter()
+        .position(|c| *c == "iso_c")
+        .map_or(columns.len(), |i| i + 1);
+    &columns[..end]
+}
 /// The sheets of an example workbook.
 pub fn sheets(kind: Kind) -> Vec<Sheet> {
     match kind {
@@ -223,7 +219,7 @@ fn wood() -> Vec<Sheet> {
         ),
         table(
             "materials",
-            &MATERIAL_HEADERS,
+            material_headers(),
             vec![vec![
                 t("demo hardwood"),
                 n(600.0),
@@ -354,7 +350,7 @@ fn food() -> Vec<Sheet> {
         ),
         table(
             "materials",
-            &MATERIAL_HEADERS,
+            material_headers(),
             vec![vec![
                 t("demo apple"),
                 n(130.0),
@@ -426,7 +422,7 @@ fn clay() -> Vec<Sheet> {
         ),
         table(
             "materials",
-            &MATERIAL_HEADERS,
+            material_headers(),
             vec![vec![
                 t("demo clay body"),
                 n(1800.0),

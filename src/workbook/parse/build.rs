@@ -10,8 +10,8 @@ use super::Measured;
 use super::context::{Bad, Ctx, Loc, MOISTURE_UNIT, Unit, parse_number_text, show};
 use super::sheets::{KeySheet, Table, canonical};
 use crate::case::{
-    Coupling, DEFAULT_CELLS_PER_LAYER, DEFAULT_TOLERANCE, Exchange, Exposed, Geometry, Humidity,
-    Layer, Material, MoistureBasis, Place, Step,
+    Case, Coupling, DEFAULT_CELLS_PER_LAYER, DEFAULT_TOLERANCE, Exchange, Exposed, Geometry,
+    Humidity, Layer, Material, MoistureBasis, Place, Step,
 };
 use crate::physics::{Diffusivity, Isotherm};
 use crate::workbook::raw::{RawRow, RawValue};
@@ -46,7 +46,7 @@ pub(super) const LAYER_COLUMNS: &[&str] = &[
 ];
 
 /// Columns of the `materials` sheet.
-pub(super) const MATERIAL_COLUMNS: &[&str] = &[
+pub(crate) const MATERIAL_COLUMNS: &[&str] = &[
     "material",
     "dry_density_kg_m3",
     "d_ref_m2_s",
@@ -95,23 +95,6 @@ const DEFAULT_T_REF_C: f64 = 25.0;
 /// Default `initial_temp_c`.
 const DEFAULT_INITIAL_TEMP_C: f64 = 20.0;
 
-/// The `case` sheet's settings, in SI units.
-#[derive(Debug)]
-pub(super) struct Settings {
-    pub title: String,
-    pub geometry: Geometry,
-    pub exposed: Exposed,
-    pub coupling: Coupling,
-    pub basis: MoistureBasis,
-    pub cells_per_layer: usize,
-    pub end_time: f64,
-    pub target_moisture: Option<f64>,
-    pub output_every: Option<f64>,
-    pub profile_times: Option<Vec<f64>>,
-    pub flow_length: f64,
-    pub tolerance: f64,
-}
-
 fn source(v: &RawValue, at: &Loc) -> String {
     if v.is_blank() {
         String::from("default")
@@ -121,7 +104,9 @@ fn source(v: &RawValue, at: &Loc) -> String {
 }
 
 /// Reads the `case` sheet. The basis comes first, since every moisture depends on it.
-pub(super) fn settings(ks: &KeySheet<'_>, ctx: &mut Ctx, default_title: &str) -> Settings {
+/// The `case` sheet's settings in SI units, as a `Case` whose layers, materials and schedule
+/// are still empty (the other sheets fill them).
+pub(super) fn settings(ks: &KeySheet<'_>, ctx: &mut Ctx, default_title: &str) -> Case {
     let case = Place::Case;
 
     let (v, at) = ks.get("moisture_basis");
@@ -365,7 +350,7 @@ pub(super) fn settings(ks: &KeySheet<'_>, ctx: &mut Ctx, default_title: &str) ->
         source(v, &at),
     );
 
-    Settings {
+    Case {
         title,
         geometry,
         exposed,
@@ -378,6 +363,9 @@ pub(super) fn settings(ks: &KeySheet<'_>, ctx: &mut Ctx, default_title: &str) ->
         profile_times,
         flow_length,
         tolerance,
+        layers: Vec::new(),
+        materials: Vec::new(),
+        schedule: Vec::new(),
     }
 }
 
