@@ -299,11 +299,7 @@ impl<'p> Driver<'p> {
     fn track_difference(&mut self) {
         let surfaces = self.stepper.surfaces();
         let x = self.stepper.state();
-        let surface = if self.p.face_a.is_some() || self.p.face_b.is_none() {
-            surfaces.x_a
-        } else {
-            surfaces.x_b
-        };
+        let surface = self.p.surface_value(&surfaces);
         let centre = self.p.centre_value(x);
         let d = (surface - centre).abs();
         if d > self.max_difference || self.max_pair.is_none() {
@@ -318,11 +314,7 @@ impl<'p> Driver<'p> {
         let p = self.p;
         let x = self.stepper.state();
         let mean = p.mean(x);
-        let surface = if p.face_a.is_some() || p.face_b.is_none() {
-            surfaces.x_a
-        } else {
-            surfaces.x_b
-        };
+        let surface = p.surface_value(&surfaces);
         let air = self.stepper.air_at(t);
         let (step_index, _) = self.stepper.schedule_step();
         let moisture_ratio = p.steps.get(step_index).and_then(|step| {

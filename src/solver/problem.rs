@@ -316,6 +316,15 @@ impl Problem {
         self.dry_mass.iter().zip(x).map(|(m, x)| m * x).sum()
     }
 
+    /// Moisture at "the" surface: face A, or face B when only B is exposed.
+    pub fn surface_value(&self, surfaces: &super::flux::Surfaces) -> f64 {
+        if self.face_a.is_some() || self.face_b.is_none() {
+            surfaces.x_a
+        } else {
+            surfaces.x_b
+        }
+    }
+
     /// Moisture at the centre (the point farthest from every exposed face).
     pub fn centre_value(&self, x: &[f64]) -> f64 {
         let [(i, wi), (j, wj)] = self.centre;

@@ -290,7 +290,8 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
     let case = r.case;
     let ws = wb.add_worksheet();
     ws.set_name("curves")?;
-    header_row(ws, 0, &curve_headers(case.layers.len()), f)?;
+    let headers = curve_headers(case.layers.len());
+    header_row(ws, 0, &headers, f)?;
     for (i, row) in r.run.curves.iter().enumerate() {
         let excel_row = i as u32 + 1;
         let (values, label) = curve_cells(case, row);
@@ -313,7 +314,7 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
     }
     if !r.measured.is_empty() {
         // Measured points sit to the right of the table, so the chart can reference them.
-        let base = (curve_headers(case.layers.len()).len() + 1) as u16;
+        let base = (headers.len() + 1) as u16;
         ws.write_string_with_format(0, base, "measured_hours", &f.header)?;
         ws.write_string_with_format(0, base + 1, "measured_moisture_pct", &f.header)?;
         for (i, m) in r.measured.iter().enumerate() {
@@ -338,7 +339,7 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
         .set_name(&format!("moisture, {}", basis_unit(case)));
     chart.legend().set_position(ChartLegendPosition::Bottom);
     chart.set_width(720).set_height(420);
-    let chart_col = (curve_headers(case.layers.len()).len() + 4) as u16;
+    let chart_col = (headers.len() + 4) as u16;
     ws.insert_chart(1, chart_col, &chart)?;
     Ok(())
 }
