@@ -66,20 +66,45 @@ fn same_material(m: &MaterialProps, distance: f64, xl: f64, xr: f64, t_c: f64) -
     ]
 }
 
-/// Equilibrium moisture of `m` at `aw`, capped so that arithmetic stays finite near aw = 1.
-fn moisture_at(m: &MaterialProps, aw: f64, t_c: f64) -> f64 {
-    match m.isotherm.equilibrium_moisture(aw, t_c) {
-        Some(x) if x.is_finite() => x.min(1e6),
-        _ => 1e6,
-    }
-}
-
 fn activity(m: &MaterialProps, x: f64, t_c: f64) -> f64 {
     m.isotherm.water_activity(x, t_c).unwrap_or(0.0)
 }
 
-/// Flux across a boundary between materials: the interface water activity a* makes the flux
-/// on both sides equal, flux_l = rho_l D_l (X_l - X_l(a*)) / d_l = rho_r D_r (X_r(a*) - X_r) / d_r.
+/// The moisture potential that is continuous across a boundary between materials: the water
+/// activity below the moisture where the isotherm reaches aw = 1, and above it (free water) the
+/// moisture relative to that saturation moisture, u = X / X_sat >= 1. Both sides of a boundary
+/// that hold free water thus share their degree of saturation; below it they share aw. u rises
+/// strictly with X, so the interface balance always has exactly one root.
+fn potential(m: &MaterialProps, x: f64, t_c: f64) -> f64 {
+    match m.isotherm.saturation_moisture(t_c) {
+        Some(sat) if sat.is_finite() && sat > 0.0 && x >= sat => x / sat,
+        _ => m.isotherm.water_activity(x, t_c).unwrap_or(0.0),
+    }
+}
+
+/// The moisture of `m` at potential `u` (the inverse of [`potential`]); +∞ where an isotherm
+/// that never reaches aw = 1 (Oswin, Henderson) is asked for u >= 1.
+fn moisture_at_potential(m: &MaterialProps, u: f64, t_c: f64) -> f64 {
+    let sat = m.isotherm.saturation_moisture(t_c).unwrap_or(f64::INFINITY);
+    if u >= 1.0 {
+        return if sat.is_finite() {
+            u * sat
+        } else {
+            f64::INFINITY
+        };
+    }
+    match m.isotherm.equilibrium_moisture(u, t_c) {
+        Some(x) if x.is_finite() => x.min(sat),
+        _ => f64::INFINITY,
+    }
+}
+
+/// Flux across a boundary between materials: the interface potential u* (see [`potential`])
+/// makes the flux on both sides equal,
+/// flux_l = rho_l D_l (X_l - X_l(u*)) / d_l = rho_r D_r (X_r(u*) - X_r) / d_r.
+///
+/// Where one side's isotherm never reaches aw = 1, its flux grows without bound as u* nears 1;
+/// the root search treats such infinite values by their sign.
 fn interface_flux(
     ml: &MaterialProps,
     mr: &MaterialProps,
@@ -89,26 +114,30 @@ fn interface_flux(
     xr: f64,
     t_c: f64,
 ) -> f64 {
-    let left = |a: f64| {
-        let xs = moisture_at(ml, a, t_c);
-        ml.density * ml.diffusivity.at(0.5 * (xl + xs), t_c) * (xl - xs) / dl
+    let side_flux = |m: &MaterialProps, x: f64, xs: f64, d: f64| {
+        if !xs.is_finite() {
+            return f64::NEG_INFINITY;
+        }
+        let f = m.density * m.diffusivity.at(0.5 * (x + xs), t_c) * (x - xs) / d;
+        if f.is_nan() { 0.0 } else { f }
     };
-    let right = |a: f64| {
-        let xs = moisture_at(mr, a, t_c);
-        mr.density * mr.diffusivity.at(0.5 * (xr + xs), t_c) * (xs - xr) / dr
-    };
-    let (al, ar) = (activity(ml, xl, t_c), activity(mr, xr, t_c));
-    if (al - ar).abs() < 1e-15 {
+    let left = |u: f64| side_flux(ml, xl, moisture_at_potential(ml, u, t_c), dl);
+    // The right side's flux runs from the interface into it, so its sign is reversed.
+    let right = |u: f64| -side_flux(mr, xr, moisture_at_potential(mr, u, t_c), dr);
+    let (ul, ur) = (potential(ml, xl, t_c), potential(mr, xr, t_c));
+    if (ul - ur).abs() < 1e-15 {
         return 0.0;
     }
-    let (lo, hi) = if al < ar { (al, ar) } else { (ar, al) };
-    let a = bracketed_root(|a| left(a) - right(a), lo, hi, 1e-15);
-    left(a)
+    let (lo, hi) = if ul < ur { (ul, ur) } else { (ur, ul) };
+    let u = bracketed_root(|u| left(u) - right(u), lo, hi, 1e-15);
+    let (fl, fr) = (left(u), right(u));
+    // At the root both sides agree; take the finite one if round-off left one side unbounded.
+    if fl.is_finite() { fl } else { fr }
 }
 
 /// Root of `f` in [lo, hi] where f changes sign, by the Illinois variant of regula falsi
-/// (superlinear, never leaves the bracket). Returns the bracket end with the smaller |f| when
-/// the ends do not bracket a root.
+/// (superlinear, never leaves the bracket). Infinite values count by their sign (the step then
+/// bisects). Returns the bracket end with the smaller |f| when the ends do not bracket a root.
 pub fn bracketed_root(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64, tol: f64) -> f64 {
     let mut flo = f(lo);
     let mut fhi = f(hi);
@@ -118,7 +147,7 @@ pub fn bracketed_root(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64, tol: f64
     if fhi == 0.0 {
         return hi;
     }
-    if flo.signum() == fhi.signum() || !flo.is_finite() || !fhi.is_finite() {
+    if flo.signum() == fhi.signum() || flo.is_nan() || fhi.is_nan() {
         return if flo.abs() <= fhi.abs() { lo } else { hi };
     }
     let mut side = 0i8;
