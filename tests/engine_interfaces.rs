@@ -23,13 +23,12 @@ fn material(name: &str, density: f64, d: f64, coef: f64, isotherm: Isotherm) -> 
     m
 }
 
+/// A layer as (material, thickness in mm, initial moisture as a dry fraction).
+type LayerSpec = (Material, f64, f64);
+
 fn two_layers(
-    outer: Material,
-    outer_mm: f64,
-    x_outer: f64,
-    inner: Material,
-    inner_mm: f64,
-    x_inner: f64,
+    outer: LayerSpec,
+    inner: LayerSpec,
     step: Step,
     hours: f64,
     exposed: Exposed,
@@ -37,18 +36,18 @@ fn two_layers(
     let mut case = Case::single_layer(
         Geometry::Slab,
         exposed,
-        outer,
-        outer_mm / 1000.0,
-        x_outer,
+        outer.0,
+        outer.1 / 1000.0,
+        outer.2,
         vec![step],
         hours * 3600.0,
     );
-    case.materials.push(inner);
+    case.materials.push(inner.0);
     case.layers.push(Layer {
         name: "inner".into(),
         material: 1,
-        thickness: inner_mm / 1000.0,
-        initial_moisture: x_inner,
+        thickness: inner.1 / 1000.0,
+        initial_moisture: inner.2,
         initial_temp_c: 20.0,
     });
     case
@@ -101,14 +100,22 @@ fn free_water_dries_out_through_a_skin_whose_diffusivity_rises_with_moisture() {
         Humidity::Relative(0.35),
         Exchange::SurfaceCoefficient(6e-8),
     );
-    let case = two_layers(skin, 6.0, 0.35, flesh, 9.0, 0.35, step, 1000.0, Exposed::A);
+    let case = two_layers(
+        (skin, 6.0, 0.35),
+        (flesh, 9.0, 0.35),
+        step,
+        1000.0,
+        Exposed::A,
+    );
     let r = run(&case);
     let (at_100, at_1000) = (layer_mean_at(&r, 1, 100.0), layer_mean_at(&r, 1, 1000.0));
     // The inner layer must lose its free water and keep drying towards the air's equilibrium.
     assert!(at_100 < sat - 0.05, "inner layer at 100 h: {at_100}");
     assert!(at_1000 < at_100 - 0.05, "inner layer at 1000 h: {at_1000}");
     // Drying stops at the inner material's own equilibrium with the air (one water activity).
-    let eq = FREE_WATER_GAB.equilibrium_moisture(0.35, 50.0).expect("gab");
+    let eq = FREE_WATER_GAB
+        .equilibrium_moisture(0.35, 50.0)
+        .expect("gab");
     assert!(at_1000 > eq, "below the inner equilibrium {eq}: {at_1000}");
 }
 
@@ -128,7 +135,13 @@ fn green_wood_under_a_skin_dries() {
         Humidity::Relative(0.4),
         Exchange::SurfaceCoefficient(5e-8),
     );
-    let case = two_layers(skin, 2.0, 0.12, wood, 20.0, 0.9, step, 500.0, Exposed::A);
+    let case = two_layers(
+        (skin, 2.0, 0.12),
+        (wood, 20.0, 0.9),
+        step,
+        500.0,
+        Exposed::A,
+    );
     let r = run(&case);
     assert!(
         layer_mean_at(&r, 1, 500.0) < 0.6,
@@ -146,7 +159,7 @@ fn sealed_pair(
     hours: f64,
 ) -> RunResult {
     let step = Step::constant(t_c, Humidity::Unspecified, Exchange::Unspecified);
-    let case = two_layers(a.0, a.1, a.2, b.0, b.1, b.2, step, hours, Exposed::None);
+    let case = two_layers(a.clone(), b.clone(), step, hours, Exposed::None);
     let r = run(&case);
     let water = |m: &Material, mm: f64, x: f64| m.dry_density * mm * x;
     let before = water(&case.materials[0], a.1, a.2) + water(&case.materials[1], b.1, b.2);
@@ -208,7 +221,7 @@ fn an_apple_like_slice_with_a_skin_dries_in_few_steps() {
     );
     let flesh = material("flesh", 130.0, 4e-10, 0.5, FREE_WATER_GAB);
     let step = Step::constant(60.0, Humidity::Relative(0.2), Exchange::AirSide(0.02));
-    let case = two_layers(skin, 0.3, 0.5, flesh, 4.7, 6.0, step, 48.0, Exposed::A);
+    let case = two_layers((skin, 0.3, 0.5), (flesh, 4.7, 6.0), step, 48.0, Exposed::A);
     let r = run(&case);
     assert!(
         layer_mean_at(&r, 1, 48.0) < 3.0,
