@@ -96,3 +96,46 @@ fn a_slab_dried_from_both_faces_matches_the_profile_series() {
         last.centre
     );
 }
+
+/// Largest moisture-ratio error from T = D t / l² = `from` on, for a slab of half-thickness `l`
+/// exposed on both faces, against Crank's plane-sheet series (eq. 4.18; surface evaporation
+/// p. 60).
+fn both_faces_error(biot: Option<f64>, from: f64) -> f64 {
+    let (l, d, x0, x_eq) = (0.01, 1e-9, 0.6, 0.1);
+    let exchange = match biot {
+        None => Exchange::FixedSurface(x_eq),
+        Some(b) => Exchange::SurfaceCoefficient(b * d / l),
+    };
+    let mut step = Step::constant(30.0, Humidity::Unspecified, exchange);
+    step.equilibrium_moisture = Some(x_eq);
+    let mut case = Case::single_layer(
+        Geometry::Slab,
+        Exposed::Both,
+        Material::constant("m", 600.0, d),
+        2.0 * l,
+        x0,
+        vec![step],
+        0.3 * l * l / d,
+    );
+    // Rows every T = 2.5e-4 so that the early period is sampled.
+    case.output_every = Some(2.5e-4 * l * l / d);
+    let run = solver::solve(&case).expect("runs");
+    let surface = biot.map_or(Surface::Fixed, |biot| Surface::Evaporation { biot });
+    let series = Series::new(Shape::Slab, surface);
+    run.curves
+        .iter()
+        .map(|r| (d * r.time / (l * l), (r.mean - x_eq) / (x0 - x_eq)))
+        .filter(|&(t, _)| t >= from)
+        .map(|(t, mr)| (mr - series.moisture_ratio(t)).abs())
+        .fold(0.0, f64::max)
+}
+
+#[test]
+fn issue_10_a_board_exposed_on_both_faces_is_resolved_like_its_half() {
+    // Issue 10, item 5: each exposed face gets the resolution of the one-face case.
+    for biot in [None, Some(1.0), Some(10.0), Some(100.0)] {
+        let err = both_faces_error(biot, 1e-3);
+        println!("both faces, Biot {biot:?}: {err:.3e}");
+        assert!(err <= 1e-3, "Biot {biot:?}: max error {err:e}");
+    }
+}

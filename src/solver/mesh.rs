@@ -40,18 +40,24 @@ pub struct Refine {
     pub start: bool,
     /// Fine cells at the layer's side towards face B.
     pub end: bool,
+    /// With both ends refined: each half is graded as a whole one-face layer (full
+    /// [`GRADING_RATIO`]) rather than with the square root of it. Used for a layer exposed to the
+    /// air on both faces, so that each face is resolved as well as a one-face layer's.
+    pub full_halves: bool,
 }
 
 impl Mesh {
-    /// Builds a mesh of layers with the given thicknesses, `cells` cells each, refined where asked.
-    pub fn new(m: u32, thicknesses: &[f64], cells: usize, refine: &[Refine]) -> Mesh {
-        let n = thicknesses.len() * cells;
+    /// Builds a mesh of layers with the given thicknesses and cell counts, refined where asked.
+    pub fn new(m: u32, thicknesses: &[f64], cells: &[usize], refine: &[Refine]) -> Mesh {
+        let n = cells.iter().sum();
         let mut faces = Vec::with_capacity(n + 1);
         let mut layer_of = Vec::with_capacity(n);
         let mut layer_cells = Vec::with_capacity(thicknesses.len());
         faces.push(0.0);
         let mut start = 0.0;
-        for (layer, (&thickness, &r)) in thicknesses.iter().zip(refine).enumerate() {
+        for (layer, ((&thickness, &r), &cells)) in
+            thicknesses.iter().zip(refine).zip(cells).enumerate()
+        {
             let widths = graded_widths(cells, r);
             let first = layer_of.len();
             let mut s = start;
@@ -135,7 +141,12 @@ fn graded_widths(cells: usize, refine: Refine) -> Vec<f64> {
         }
         (true, true) => {
             let half = cells.div_ceil(2);
-            let first = geometric_with_ratio(half, GRADING_RATIO.sqrt());
+            let ratio = if refine.full_halves {
+                GRADING_RATIO
+            } else {
+                GRADING_RATIO.sqrt()
+            };
+            let first = geometric_with_ratio(half, ratio);
             let mut w = first.clone();
             let mut second = first;
             second.truncate(cells - half);
@@ -168,13 +179,14 @@ mod tests {
     const BOTH: Refine = Refine {
         start: true,
         end: true,
+        full_halves: false,
     };
 
     #[test]
     fn volumes_sum_to_the_body() {
         // Slab: thickness; cylinder: R/2 (pi R^2 / (2 pi R)); sphere: R/3 (per outer area).
         for (m, expected) in [(0, 0.03), (1, 0.015), (2, 0.01)] {
-            let mesh = Mesh::new(m, &[0.01, 0.02], 13, &[BOTH, BOTH]);
+            let mesh = Mesh::new(m, &[0.01, 0.02], &[13, 13], &[BOTH, BOTH]);
             let v: f64 = mesh.volumes.iter().sum();
             assert!((v - expected).abs() < 1e-15, "m={m}: {v}");
             assert_eq!(mesh.len(), 26);
@@ -190,6 +202,7 @@ mod tests {
             Refine {
                 start: true,
                 end: false,
+                full_halves: false,
             },
         );
         assert!((w[39] / w[0] - GRADING_RATIO).abs() < 1e-9);

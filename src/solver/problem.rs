@@ -177,6 +177,9 @@ impl Problem {
     /// Builds the discrete problem from a validated case.
     pub fn new(case: &Case) -> Problem {
         let n_layers = case.layers.len();
+        // A single layer exposed on both faces is two one-face halves back to back: each half
+        // gets the cells and grading a one-face layer would, so both faces are resolved alike.
+        let mirrored = n_layers == 1 && case.exposed == crate::case::Exposed::Both;
         let refine: Vec<Refine> = (0..n_layers)
             .map(|i| Refine {
                 start: if i == 0 { case.exposed.a() } else { true },
@@ -185,15 +188,12 @@ impl Problem {
                 } else {
                     true
                 },
+                full_halves: mirrored,
             })
             .collect();
+        let cells = vec![case.cells_per_layer * if mirrored { 2 } else { 1 }; n_layers];
         let thicknesses: Vec<f64> = case.layers.iter().map(|l| l.thickness).collect();
-        let mesh = Mesh::new(
-            case.geometry.index(),
-            &thicknesses,
-            case.cells_per_layer,
-            &refine,
-        );
+        let mesh = Mesh::new(case.geometry.index(), &thicknesses, &cells, &refine);
         let materials: Vec<MaterialProps> = case
             .materials
             .iter()
