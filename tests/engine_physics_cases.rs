@@ -325,3 +325,33 @@ fn an_invalid_case_reports_every_problem_without_panicking() {
     assert!(has(step("equilibrium_moisture_pct")));
     assert!(solver::solve(&case).is_err());
 }
+
+#[test]
+fn issue_10_air_side_exchange_refuses_a_given_equilibrium_moisture() {
+    // Issue 10, item 4: with hm_m_s the flux follows the isotherm; a given equilibrium would
+    // only change the moisture ratio, so the case is refused at that cell.
+    let mut m = Material::constant("m", 500.0, 1e-9);
+    m.isotherm = Isotherm::Oswin { a: 0.1, b: 0.5 };
+    for exchange in [Exchange::AirSide(0.01), Exchange::AirVelocity(2.0)] {
+        let mut step = Step::constant(40.0, Humidity::Relative(0.3), exchange);
+        step.equilibrium_moisture = Some(0.05);
+        let case = Case::single_layer(
+            Geometry::Slab,
+            Exposed::A,
+            m.clone(),
+            0.01,
+            0.5,
+            vec![step],
+            3600.0,
+        );
+        let problems = case.validate();
+        let place = Place::Step {
+            index: 0,
+            column: "equilibrium_moisture_pct",
+        };
+        assert!(
+            problems.iter().any(|p| p.place == place),
+            "{exchange:?}: {problems:?}"
+        );
+    }
+}

@@ -438,6 +438,18 @@ fn check_schedule(case: &Case, c: &mut Checker) {
                 if !humid {
                     c.push(at("rh_pct"), "air-side exchange needs rh_pct or wet_bulb_c");
                 }
+                // One rule for the equilibrium: with the air-side law the surface tends to the
+                // isotherm's moisture at the air's humidity, which the moisture ratio uses too.
+                if s.equilibrium_moisture.is_some() {
+                    c.push(
+                        at("equilibrium_moisture_pct"),
+                        format!(
+                            "with {column} the surface tends to the isotherm's equilibrium at the \
+                             air's humidity; leave equilibrium_moisture_pct empty, or use \
+                             surface_coef_m_s to give the equilibrium yourself"
+                        ),
+                    );
+                }
             }
         }
     }
