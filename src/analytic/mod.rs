@@ -28,7 +28,7 @@ mod roots;
 mod series;
 mod special;
 
-pub use one_term::one_term_coefficient;
+pub use one_term::{conduction_centre_ratio, one_term_coefficient};
 pub use profile::slab_profile;
 pub use roots::{bessel_j0_zero, bessel_j1_zero, eigenvalues, weight};
 pub use series::Series;

@@ -193,11 +193,76 @@ fn check_settings(case: &Case, c: &mut Checker) {
         );
     }
     if case.coupling == Coupling::HeatAndMoisture {
-        c.push(
-            Place::Case("coupling"),
-            "coupled heat and moisture is not available in this version; use coupling = moisture \
-             (isothermal at the air temperature)",
+        check_coupled(case, c);
+    }
+}
+
+/// What a coupled run needs beyond a moisture run: thermal properties of every material in a
+/// layer, and a heat transfer coefficient wherever the surface law does not imply one.
+fn check_coupled(case: &Case, c: &mut Checker) {
+    let mut used: Vec<usize> = case.layers.iter().map(|l| l.material).collect();
+    used.sort_unstable();
+    used.dedup();
+    for &i in &used {
+        let Some(m) = case.materials.get(i) else {
+            continue;
+        };
+        let at = |column| Place::Material { index: i, column };
+        if m.conductivity.is_none() {
+            c.push(
+                at("conductivity_w_mk"),
+                format!(
+                    "coupling = heat_and_moisture needs conductivity_w_mk for material {}",
+                    m.name
+                ),
+            );
+        }
+        if m.specific_heat.is_none() {
+            c.push(
+                at("specific_heat_j_kgk"),
+                format!(
+                    "coupling = heat_and_moisture needs specific_heat_j_kgk for material {}",
+                    m.name
+                ),
+            );
+        }
+    }
+    if case.exposed == Exposed::None {
+        return;
+    }
+    for (i, s) in case.schedule.iter().enumerate() {
+        let needs_h = matches!(
+            s.exchange,
+            Exchange::FixedSurface(_) | Exchange::SurfaceCoefficient(_)
         );
+        if needs_h && s.heat_coef.is_none() {
+            let column = if matches!(s.exchange, Exchange::FixedSurface(_)) {
+                "surface_moisture_pct"
+            } else {
+                "surface_coef_m_s"
+            };
+            c.push(
+                Place::Step {
+                    index: i,
+                    column: "h_w_m2k",
+                },
+                format!(
+                    "a coupled run needs the surface's heat transfer coefficient: with {column} \
+                     give h_w_m2k (with hm_m_s or air_velocity_m_s it follows from the \
+                     heat/mass analogy)"
+                ),
+            );
+        }
+        if let Some(h) = s.heat_coef {
+            c.positive(
+                Place::Step {
+                    index: i,
+                    column: "h_w_m2k",
+                },
+                "h_w_m2k",
+                h,
+            );
+        }
     }
 }
 

@@ -47,6 +47,9 @@ pub struct Profile {
     pub time: f64,
     /// Moisture of each cell (dry fraction), `None` where the run ended before this time.
     pub moisture: Option<Vec<f64>>,
+    /// Temperature of each cell (degrees C) in coupled runs, `None` otherwise or where the run
+    /// ended before this time.
+    pub temperature: Option<Vec<f64>>,
 }
 
 /// How a run ended.
@@ -79,6 +82,11 @@ pub struct RunResult {
     pub water_removed: f64,
     /// |change of water held + water out| / initial water held.
     pub mass_balance_error: f64,
+    /// Coupled runs: |convective heat in - (change of stored energy + latent heat + sensible
+    /// heat of the water that left)| / the largest of those terms. `None` when isothermal.
+    pub energy_balance_error: Option<f64>,
+    /// Coupled runs: latent heat taken up by the water removed, J per m2 of exposed surface.
+    pub evaporation_energy_j_m2: Option<f64>,
     /// Cells.
     pub cells: usize,
     /// Solver work.
@@ -124,6 +132,7 @@ struct Driver<'p> {
     next_output: u64,
     initial_mean: f64,
     initial_water: f64,
+    initial_energy: f64,
     max_difference: f64,
     max_pair: Option<(f64, f64)>,
     drying_time: Option<f64>,
@@ -142,6 +151,9 @@ impl<'p> Driver<'p> {
     fn new(p: &'p Problem) -> Driver<'p> {
         let stepper = Stepper::new(p);
         let initial_mean = p.mean(&p.initial);
+        let initial_energy = p.thermal.as_ref().map_or(0.0, |th| {
+            super::coupled::stored_energy(p, th, stepper.state())
+        });
         Driver {
             p,
             stepper,
@@ -151,6 +163,7 @@ impl<'p> Driver<'p> {
             next_output: 1,
             initial_mean,
             initial_water: p.water(&p.initial),
+            initial_energy,
             max_difference: 0.0,
             max_pair: None,
             drying_time: None,
@@ -273,7 +286,7 @@ impl<'p> Driver<'p> {
             self.stepper.set_schedule_step(i + 1, t);
             self.step_starts.push((t, i + 1));
             // A step whose trigger is already met ends at once.
-            let mean = self.p.mean(self.stepper.state());
+            let mean = self.p.mean(self.stepper.moisture());
             if let Some(level) = self.p.steps[i + 1].until_moisture {
                 let direction = self.initial_mean - level;
                 if direction * (mean - level) <= 0.0 {
@@ -298,7 +311,7 @@ impl<'p> Driver<'p> {
 
     fn track_difference(&mut self) {
         let surfaces = self.stepper.surfaces();
-        let x = self.stepper.state();
+        let x = self.stepper.moisture();
         let surface = self.p.surface_value(&surfaces);
         let centre = self.p.centre_value(x);
         let d = (surface - centre).abs();
@@ -312,7 +325,7 @@ impl<'p> Driver<'p> {
         let t = self.stepper.time();
         let surfaces = self.stepper.surfaces();
         let p = self.p;
-        let x = self.stepper.state();
+        let x = self.stepper.moisture();
         let mean = p.mean(x);
         let surface = p.surface_value(&surfaces);
         let air = self.stepper.air_at(t);
@@ -336,15 +349,25 @@ impl<'p> Driver<'p> {
                 w / m
             })
             .collect();
+        let temps = &self.stepper.state().temperature;
+        let (mean_temp_c, surface_temp_c, centre_temp_c) = if temps.is_empty() {
+            (air.dry_bulb_c, air.dry_bulb_c, air.dry_bulb_c)
+        } else {
+            (
+                p.mean(temps),
+                p.surface_temperature(&surfaces),
+                p.centre_value(temps),
+            )
+        };
         let row = CurveRow {
             time: t,
             mean,
             surface,
             centre: p.centre_value(x),
             moisture_ratio,
-            mean_temp_c: air.dry_bulb_c,
-            surface_temp_c: air.dry_bulb_c,
-            centre_temp_c: air.dry_bulb_c,
+            mean_temp_c,
+            surface_temp_c,
+            centre_temp_c,
             drying_rate: surfaces.total_out(p) / p.total_dry_mass(),
             air_temp_c: air.dry_bulb_c,
             air_rh: air.rh,
@@ -357,6 +380,12 @@ impl<'p> Driver<'p> {
         self.curves.push(row);
     }
 
+    /// Cell temperatures in coupled runs.
+    fn temperatures(&self) -> Option<Vec<f64>> {
+        let t = &self.stepper.state().temperature;
+        (!t.is_empty()).then(|| t.clone())
+    }
+
     fn take_profiles(&mut self) {
         let t = self.stepper.time();
         while let Some(&pt) = self.p.profile_times.get(self.next_profile) {
@@ -365,7 +394,8 @@ impl<'p> Driver<'p> {
             }
             self.profiles.push(Profile {
                 time: pt,
-                moisture: Some(self.stepper.state().to_vec()),
+                moisture: Some(self.stepper.moisture().to_vec()),
+                temperature: self.temperatures(),
             });
             self.next_profile += 1;
         }
@@ -381,13 +411,15 @@ impl<'p> Driver<'p> {
                 self.profiles.push(Profile {
                     time: pt,
                     moisture: None,
+                    temperature: None,
                 });
             }
         }
         if !p.profile_times_given && self.profiles.last().is_none_or(|pr| !same_time(pr.time, t)) {
             self.profiles.push(Profile {
                 time: t,
-                moisture: Some(self.stepper.state().to_vec()),
+                moisture: Some(self.stepper.moisture().to_vec()),
+                temperature: self.temperatures(),
             });
         }
         if p.profile_times_given && self.next_profile < p.profile_times.len() {
@@ -396,12 +428,35 @@ impl<'p> Driver<'p> {
                 t / 3600.0
             ));
         }
-        let water_now = p.water(self.stepper.state());
+        let water_now = p.water(self.stepper.moisture());
         let out = self.stepper.outflow();
         let mass_balance_error = if self.initial_water > 0.0 {
             ((self.initial_water - water_now) - out).abs() / self.initial_water
         } else {
             ((self.initial_water - water_now) - out).abs()
+        };
+        let (energy_balance_error, evaporation_energy_j_m2) = match &p.thermal {
+            Some(thermal) => {
+                let e = self.stepper.exchanged();
+                let stored = super::coupled::stored_energy(p, thermal, self.stepper.state())
+                    - self.initial_energy;
+                // convective = stored + latent + sensible heat of the water that left, where
+                // the last is energy_in's remainder: convective - latent - energy_in.
+                let residual = stored - e.energy_in;
+                let size = e
+                    .convective
+                    .abs()
+                    .max(stored.abs())
+                    .max(e.latent.abs())
+                    .max(f64::MIN_POSITIVE);
+                let per_area = if p.exposed_area > 0.0 {
+                    e.latent / p.exposed_area
+                } else {
+                    0.0
+                };
+                (Some(residual.abs() / size), Some(per_area))
+            }
+            None => (None, None),
         };
         let water_removed = if p.exposed_area > 0.0 {
             out / p.exposed_area
@@ -418,6 +473,8 @@ impl<'p> Driver<'p> {
             max_surface_centre_difference_pair: self.max_pair,
             water_removed,
             mass_balance_error,
+            energy_balance_error,
+            evaporation_energy_j_m2,
             cells: p.len(),
             stats: self.stepper.stats(),
             solve_seconds,

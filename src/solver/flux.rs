@@ -42,6 +42,10 @@ pub struct Surfaces {
     pub x_a: f64,
     /// Surface moisture at face B.
     pub x_b: f64,
+    /// Surface temperature at face A, degrees C (the air's in isothermal runs).
+    pub t_a: f64,
+    /// Surface temperature at face B, degrees C.
+    pub t_b: f64,
 }
 
 impl Surfaces {
@@ -105,7 +109,7 @@ fn moisture_at_potential(m: &MaterialProps, u: f64, t_c: f64) -> f64 {
 ///
 /// Where one side's isotherm never reaches aw = 1, its flux grows without bound as u* nears 1;
 /// the root search treats such infinite values by their sign.
-fn interface_flux(
+pub(crate) fn interface_flux(
     ml: &MaterialProps,
     mr: &MaterialProps,
     dl: f64,
@@ -319,6 +323,8 @@ pub fn evaluate_faces(
     let mut s = Surfaces {
         x_a: x[0],
         x_b: x[n - 1],
+        t_a: t_c,
+        t_b: t_c,
         ..Surfaces::default()
     };
     ws.flux[0] = 0.0;

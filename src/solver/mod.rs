@@ -6,16 +6,20 @@
 //! the step control and a [`Workspace`]; the caller drives `step()`), and [`run`] (the loop that
 //! produces a [`RunResult`]).
 
+pub mod blocktri;
+pub mod coupled;
 mod driver;
 pub mod flux;
 pub mod mesh;
 pub mod problem;
+pub mod state;
 mod stepper;
 pub mod tridiag;
 mod workspace;
 
 pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
 pub use problem::Problem;
+pub use state::State;
 pub use stepper::{Controller, Stats, Stepper, StopReason};
 pub use workspace::Workspace;
 

@@ -45,6 +45,8 @@ pub struct StepPlan {
     pub equilibrium_moisture: Option<f64>,
     /// Whether air changes linearly over the step.
     pub ramp: bool,
+    /// Heat transfer coefficient as given, W/(m2 K).
+    pub heat_coef: Option<f64>,
 }
 
 impl StepPlan {
@@ -130,6 +132,23 @@ pub enum InnerFace {
     },
 }
 
+/// Thermal data of a coupled (heat and moisture) run.
+#[derive(Debug, Clone)]
+pub struct Thermal {
+    /// Thermal conductivity of each material, W/(m K).
+    pub conductivity: Vec<f64>,
+    /// Specific heat of each material's dry solid, J/(kg K).
+    pub specific_heat: Vec<f64>,
+    /// Initial temperature of each cell, degrees C.
+    pub initial: Vec<f64>,
+    /// Typical temperature swing of the run, K, for absolute tolerances.
+    pub temperature_scale: f64,
+}
+
+/// Specific heat of liquid water held in the product, J/(kg K) (common practice: the value near
+/// 20-60 C, within 1 % over 0-100 C).
+pub const WATER_SPECIFIC_HEAT: f64 = 4186.0;
+
 /// The discrete problem.
 #[derive(Debug, Clone)]
 pub struct Problem {
@@ -171,6 +190,8 @@ pub struct Problem {
     pub flow_length: f64,
     /// Where "centre" is: the cells to interpolate and their weights.
     pub centre: [(usize, f64); 2],
+    /// Heat data for coupled runs; `None` when isothermal.
+    pub thermal: Option<Thermal>,
 }
 
 impl Problem {
@@ -267,6 +288,37 @@ impl Problem {
         };
         let centre = centre_weights(&mesh, case);
         let moisture_scale = moisture_scale(case, &steps, &materials);
+        let thermal = (case.coupling == crate::case::Coupling::HeatAndMoisture).then(|| {
+            let initial: Vec<f64> = mesh
+                .layer_of
+                .iter()
+                .map(|&l| case.layers[l].initial_temp_c)
+                .collect();
+            let mut lo = f64::INFINITY;
+            let mut hi = f64::NEG_INFINITY;
+            for t in initial.iter().copied().chain(
+                steps
+                    .iter()
+                    .flat_map(|s| [s.from.dry_bulb_c, s.to.dry_bulb_c]),
+            ) {
+                lo = lo.min(t);
+                hi = hi.max(t);
+            }
+            Thermal {
+                conductivity: case
+                    .materials
+                    .iter()
+                    .map(|m| m.conductivity.unwrap_or(f64::NAN))
+                    .collect(),
+                specific_heat: case
+                    .materials
+                    .iter()
+                    .map(|m| m.specific_heat.unwrap_or(f64::NAN))
+                    .collect(),
+                initial,
+                temperature_scale: (hi - lo).max(1.0),
+            }
+        });
         Problem {
             mesh,
             materials,
@@ -287,6 +339,7 @@ impl Problem {
             exposed_area,
             flow_length: case.flow_length,
             centre,
+            thermal,
         }
     }
 
@@ -322,6 +375,15 @@ impl Problem {
             surfaces.x_a
         } else {
             surfaces.x_b
+        }
+    }
+
+    /// Temperature at "the" surface (as [`Problem::surface_value`]).
+    pub fn surface_temperature(&self, surfaces: &super::flux::Surfaces) -> f64 {
+        if self.face_a.is_some() || self.face_b.is_none() {
+            surfaces.t_a
+        } else {
+            surfaces.t_b
         }
     }
 
@@ -371,6 +433,26 @@ impl Problem {
                     &props,
                 ))
             }
+        }
+    }
+
+    /// Heat transfer coefficient at an exposed face during `step` under `air`, W/(m2 K): as given
+    /// (`h_w_m2k`), else from the flat-plate correlation for an air velocity, else from hm by the
+    /// Chilton-Colburn analogy; `None` where none applies (validation refuses such coupled runs).
+    pub fn heat_coef(&self, step: &StepPlan, air: Air) -> Option<f64> {
+        if step.heat_coef.is_some() {
+            return step.heat_coef;
+        }
+        let props =
+            physics::transfer::air_properties(air.dry_bulb_c, physics::STANDARD_PRESSURE_PA);
+        match step.exchange {
+            Exchange::AirVelocity(v) => Some(physics::transfer::flat_plate_heat_coef(
+                v,
+                self.flow_length,
+                &props,
+            )),
+            Exchange::AirSide(hm) => Some(physics::transfer::heat_coef_from_mass(hm, &props)),
+            _ => None,
         }
     }
 
@@ -436,6 +518,7 @@ fn plan_steps(schedule: &[Step]) -> Vec<StepPlan> {
             exchange: s.exchange,
             equilibrium_moisture: s.equilibrium_moisture,
             ramp: s.ramp,
+            heat_coef: s.heat_coef,
         });
     }
     plans

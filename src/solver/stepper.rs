@@ -12,9 +12,45 @@
 use std::fmt;
 
 use super::SolveError;
+use super::coupled::{self, CoupledWorkspace, HeatFace, HeatFaces};
 use super::flux::{self, FaceLaws, Surfaces};
-use super::problem::{Air, Problem};
+use super::problem::{Air, FaceLaw, Problem};
+use super::state::State;
 use super::workspace::Workspace;
+
+/// What crossed the exposed faces over a time, per m2 of face A (integrals of the face rates).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Exchanged {
+    /// Water out, kg/m2.
+    pub water: f64,
+    /// Heat the air gave the surfaces, h (T_air - T_s), J/m2 (coupled runs).
+    pub convective: f64,
+    /// Latent heat taken by the evaporated water, J/m2 (coupled runs).
+    pub latent: f64,
+    /// Energy into the body: convective less latent less the sensible heat of the water that
+    /// left, J/m2 (coupled runs).
+    pub energy_in: f64,
+}
+
+impl Exchanged {
+    fn scaled(self, f: f64) -> Exchanged {
+        Exchanged {
+            water: f * self.water,
+            convective: f * self.convective,
+            latent: f * self.latent,
+            energy_in: f * self.energy_in,
+        }
+    }
+
+    fn plus(self, o: Exchanged) -> Exchanged {
+        Exchanged {
+            water: self.water + o.water,
+            convective: self.convective + o.convective,
+            latent: self.latent + o.latent,
+            energy_in: self.energy_in + o.energy_in,
+        }
+    }
+}
 
 /// Step-size control from the step-doubling error estimate.
 ///
@@ -125,10 +161,10 @@ const NEWTON_CAP_GROWTH: f64 = 1.5;
 /// Trial states of one step.
 #[derive(Debug, Clone)]
 struct Trial {
-    full: Vec<f64>,
-    half: Vec<f64>,
-    two_halves: Vec<f64>,
-    candidate: Vec<f64>,
+    full: State,
+    half: State,
+    two_halves: State,
+    candidate: State,
 }
 
 /// Advances a [`Problem`] in time. The caller drives it with [`Stepper::step`].
@@ -136,17 +172,18 @@ struct Trial {
 pub struct Stepper<'p> {
     problem: &'p Problem,
     t: f64,
-    x: Vec<f64>,
+    x: State,
     dt: f64,
     stop_time: f64,
     triggers: [Option<f64>; 2],
     step_index: usize,
     step_start: f64,
     ws: Workspace,
+    coupled_ws: Option<CoupledWorkspace>,
     trial: Trial,
     controller: Controller,
     stats: Stats,
-    outflow: f64,
+    exchanged: Exchanged,
     newton_cap: f64,
 }
 
@@ -154,25 +191,33 @@ impl<'p> Stepper<'p> {
     /// A stepper at t = 0 with the problem's initial state and schedule step 0.
     pub fn new(problem: &'p Problem) -> Stepper<'p> {
         let n = problem.len();
+        let coupled = problem.thermal.is_some();
         let mut s = Stepper {
             problem,
             t: 0.0,
-            x: problem.initial.clone(),
+            x: State {
+                moisture: problem.initial.clone(),
+                temperature: problem
+                    .thermal
+                    .as_ref()
+                    .map_or_else(Vec::new, |th| th.initial.clone()),
+            },
             dt: 0.0,
             stop_time: problem.end_time,
             triggers: [None, None],
             step_index: 0,
             step_start: 0.0,
             ws: Workspace::new(n),
+            coupled_ws: coupled.then(|| CoupledWorkspace::new(n)),
             trial: Trial {
-                full: vec![0.0; n],
-                half: vec![0.0; n],
-                two_halves: vec![0.0; n],
-                candidate: vec![0.0; n],
+                full: State::zeros(n, coupled),
+                half: State::zeros(n, coupled),
+                two_halves: State::zeros(n, coupled),
+                candidate: State::zeros(n, coupled),
             },
             controller: Controller::default(),
             stats: Stats::default(),
-            outflow: 0.0,
+            exchanged: Exchanged::default(),
             newton_cap: f64::INFINITY,
         };
         s.restart_step_size();
@@ -185,21 +230,32 @@ impl<'p> Stepper<'p> {
     }
 
     /// Current moisture of every cell, dry fraction.
-    pub fn state(&self) -> &[f64] {
+    pub fn moisture(&self) -> &[f64] {
+        &self.x.moisture
+    }
+
+    /// Current state (moisture, and temperature in coupled runs).
+    pub fn state(&self) -> &State {
         &self.x
     }
 
     /// Work counters so far.
     pub fn stats(&self) -> Stats {
         Stats {
-            linear_solves: self.ws.linear_solves,
+            linear_solves: self.ws.linear_solves
+                + self.coupled_ws.as_ref().map_or(0, |w| w.linear_solves),
             ..self.stats
         }
     }
 
     /// Water that has left through the exposed faces, kg per m2 of face A.
     pub fn outflow(&self) -> f64 {
-        self.outflow
+        self.exchanged.water
+    }
+
+    /// Water and heat exchanged through the exposed faces so far.
+    pub fn exchanged(&self) -> Exchanged {
+        self.exchanged
     }
 
     /// The schedule step now in force, and when it started.
@@ -239,7 +295,48 @@ impl<'p> Stepper<'p> {
     /// Surface figures at the current state (fills the workspace's face arrays).
     pub fn surfaces(&mut self) -> Surfaces {
         let (laws, t_c) = self.laws_at(self.t);
-        flux::evaluate_faces(self.problem, &laws, t_c, &self.x, &mut self.ws)
+        let faces = self.heat_faces(&laws, self.t);
+        match (&self.problem.thermal, &mut self.coupled_ws) {
+            (Some(thermal), Some(cws)) => {
+                let c = coupled::evaluate_faces(self.problem, thermal, &faces, &self.x, cws);
+                let n = self.x.moisture.len();
+                let mut s = Surfaces {
+                    x_a: self.x.moisture[0],
+                    x_b: self.x.moisture[n - 1],
+                    t_a: self.x.temperature[0],
+                    t_b: self.x.temperature[n - 1],
+                    ..Surfaces::default()
+                };
+                if let Some(f) = c.a {
+                    (s.out_a, s.x_a, s.t_a) = (f.outflow, f.x_s, f.t_s);
+                }
+                if let Some(f) = c.b {
+                    (s.out_b, s.x_b, s.t_b) = (f.outflow, f.x_s, f.t_s);
+                }
+                s
+            }
+            _ => flux::evaluate_faces(self.problem, &laws, t_c, &self.x.moisture, &mut self.ws),
+        }
+    }
+
+    /// The coupled faces' conditions for the water laws `laws` at time `t`.
+    fn heat_faces(&self, laws: &FaceLaws, t: f64) -> HeatFaces {
+        let air = self.air_at(t);
+        let h = self
+            .problem
+            .steps
+            .get(self.step_index)
+            .and_then(|step| self.problem.heat_coef(step, air))
+            .unwrap_or(0.0);
+        let face = |law: FaceLaw| HeatFace {
+            law,
+            h,
+            t_air: air.dry_bulb_c,
+        };
+        HeatFaces {
+            a: face(laws.a),
+            b: face(laws.b),
+        }
     }
 
     fn laws_at(&self, t: f64) -> (FaceLaws, f64) {
@@ -264,12 +361,23 @@ impl<'p> Stepper<'p> {
     fn restart_step_size(&mut self) {
         let p = self.problem;
         let t_c = self.air_at(self.t).dry_bulb_c;
-        let d_max = p
+        let temp = |i: usize| self.x.temperature.get(i).copied().unwrap_or(t_c);
+        let mut d_max = p
             .cell_material
             .iter()
-            .zip(&self.x)
-            .map(|(&m, &x)| p.materials[m].diffusivity.at(x, t_c))
+            .zip(&self.x.moisture)
+            .enumerate()
+            .map(|(i, (&m, &x))| p.materials[m].diffusivity.at(x, temp(i)))
             .fold(0.0, f64::max);
+        if let Some(th) = &p.thermal {
+            // The thermal diffusivity k / (rho_s (c_s + c_w X)) sets the first step too.
+            for (i, &m) in p.cell_material.iter().enumerate() {
+                let c = p.materials[m].density
+                    * (th.specific_heat[m]
+                        + super::problem::WATER_SPECIFIC_HEAT * self.x.moisture[i]);
+                d_max = d_max.max(th.conductivity[m] / c);
+            }
+        }
         let h = p.mesh.min_width();
         let cell_time = if d_max > 0.0 {
             1e-2 * h * h / d_max
@@ -280,56 +388,99 @@ impl<'p> Stepper<'p> {
         self.newton_cap = f64::INFINITY;
     }
 
-    /// One backward-Euler solve from `old` at `t` over `dt`; returns the outflow integral.
+    /// One backward-Euler solve at `t` over `dt` from the current state (`from_current`) or from
+    /// the trial's half step; returns what crossed the faces.
     fn solve_be(
         &mut self,
         t: f64,
         dt: f64,
-        which: fn(&mut Trial) -> (&[f64], &mut [f64]),
+        which: fn(&mut Trial) -> &mut State,
         from_current: bool,
-    ) -> Result<f64, flux::NewtonFailure> {
+    ) -> Result<Exchanged, flux::NewtonFailure> {
         let (laws, t_c) = self.laws_at(t + dt);
-        let (old, new) = if from_current {
-            let (_, new) = which(&mut self.trial);
-            (&self.x[..], new)
+        let faces = self.heat_faces(&laws, t + dt);
+        let p = self.problem;
+        // The half step's result is the start of the second half: move it out of the way.
+        let mut new = std::mem::take(which(&mut self.trial));
+        let old = if from_current {
+            &self.x
         } else {
-            which(&mut self.trial)
+            &self.trial.half
         };
-        let (surfaces, iterations) =
-            flux::backward_euler(self.problem, &laws, t_c, dt, old, new, &mut self.ws)?;
+        let result = match (&p.thermal, &mut self.coupled_ws) {
+            (Some(thermal), Some(cws)) => coupled::backward_euler(
+                p, thermal, &faces, dt, old, &mut new, cws,
+            )
+            .map(|(s, iterations)| {
+                let mut e = Exchanged::default();
+                for (site, f) in [(p.face_a, s.a), (p.face_b, s.b)] {
+                    if let (Some(site), Some(f)) = (site, f) {
+                        e.water += site.area * f.outflow;
+                        e.convective += site.area * f.convective;
+                        e.latent += site.area * f.latent;
+                        e.energy_in += site.area * f.energy_in;
+                    }
+                }
+                (e, iterations)
+            }),
+            _ => flux::backward_euler(
+                p,
+                &laws,
+                t_c,
+                dt,
+                &old.moisture,
+                &mut new.moisture,
+                &mut self.ws,
+            )
+            .map(|(s, iterations)| {
+                (
+                    Exchanged {
+                        water: s.total_out(p),
+                        ..Exchanged::default()
+                    },
+                    iterations,
+                )
+            }),
+        };
+        *which(&mut self.trial) = new;
+        let (rates, iterations) = result?;
         self.stats.newton_iterations += iterations as u64;
-        Ok(dt * surfaces.total_out(self.problem))
+        Ok(rates.scaled(dt))
     }
 
-    /// Computes the extrapolated candidate for a step of `dt`; returns (scaled error, outflow).
-    fn attempt(&mut self, dt: f64) -> Result<(f64, f64), flux::NewtonFailure> {
+    /// Computes the extrapolated candidate for a step of `dt`; returns (scaled error, what
+    /// crossed the faces).
+    fn attempt(&mut self, dt: f64) -> Result<(f64, Exchanged), flux::NewtonFailure> {
         let t = self.t;
-        let full = self.solve_be(t, dt, |tr| (&[], &mut tr.full[..]), true)?;
-        let h1 = self.solve_be(t, 0.5 * dt, |tr| (&[], &mut tr.half[..]), true)?;
-        let h2 = self.solve_be(
-            t + 0.5 * dt,
-            0.5 * dt,
-            |tr| (&tr.half[..], &mut tr.two_halves[..]),
-            false,
-        )?;
+        let full = self.solve_be(t, dt, |tr| &mut tr.full, true)?;
+        let h1 = self.solve_be(t, 0.5 * dt, |tr| &mut tr.half, true)?;
+        let h2 = self.solve_be(t + 0.5 * dt, 0.5 * dt, |tr| &mut tr.two_halves, false)?;
         let scale = self.problem.tolerance * self.problem.moisture_scale;
         let tr = &mut self.trial;
         let mut err: f64 = 0.0;
-        for i in 0..tr.candidate.len() {
-            let (a, b) = (tr.full[i], tr.two_halves[i]);
-            err = err.max((b - a).abs());
-            tr.candidate[i] = 2.0 * b - a;
+        for i in 0..tr.candidate.moisture.len() {
+            let (a, b) = (tr.full.moisture[i], tr.two_halves.moisture[i]);
+            err = err.max((b - a).abs() / scale);
+            tr.candidate.moisture[i] = 2.0 * b - a;
+        }
+        if let Some(th) = &self.problem.thermal {
+            let t_scale = self.problem.tolerance * th.temperature_scale;
+            for i in 0..tr.candidate.temperature.len() {
+                let (a, b) = (tr.full.temperature[i], tr.two_halves.temperature[i]);
+                err = err.max((b - a).abs() / t_scale);
+                tr.candidate.temperature[i] = 2.0 * b - a;
+            }
         }
         if !err.is_finite() {
             return Err(flux::NewtonFailure::Breakdown);
         }
-        Ok((err / scale, 2.0 * (h1 + h2) - full))
+        Ok((err, h1.plus(h2).scaled(2.0).plus(full.scaled(-1.0))))
     }
 
-    fn accept(&mut self, dt: f64, outflow: f64) {
+    fn accept(&mut self, dt: f64, exchanged: Exchanged) {
         std::mem::swap(&mut self.x, &mut self.trial.candidate);
         self.t += dt;
-        self.outflow += outflow;
+        self.exchanged = self.exchanged.plus(exchanged);
         self.stats.accepted += 1;
         self.newton_cap *= NEWTON_CAP_GROWTH;
     }
@@ -373,7 +524,7 @@ impl<'p> Stepper<'p> {
         if remaining <= 0.0 {
             return Ok(StopReason::StopTime);
         }
-        let before = self.problem.mean(&self.x);
+        let before = self.problem.mean(&self.x.moisture);
         if let Some((i, _)) = self.crossed(before, before) {
             return Ok(StopReason::Trigger(i));
         }
@@ -397,7 +548,7 @@ impl<'p> Stepper<'p> {
                 self.dt = self.controller.next(dt, err);
                 continue;
             }
-            let after = self.problem.mean(&self.trial.candidate);
+            let after = self.problem.mean(&self.trial.candidate.moisture);
             if let Some((which, level)) = self.crossed(before, after) {
                 return self.land_on_trigger(dt, err, outflow, before, after, which, level);
             }
@@ -420,7 +571,7 @@ impl<'p> Stepper<'p> {
         &mut self,
         dt: f64,
         err: f64,
-        outflow: f64,
+        outflow: Exchanged,
         before: f64,
         after: f64,
         which: usize,
@@ -446,7 +597,7 @@ impl<'p> Stepper<'p> {
                     f_hi = f_lo.signum() * -f_hi.abs().max(tol);
                     continue;
                 };
-                let f = self.problem.mean(&self.trial.candidate) - level;
+                let f = self.problem.mean(&self.trial.candidate.moisture) - level;
                 (best_dt, best_out, best_err) = (d, out, e);
                 buffers_hold_best = true;
                 if f.abs() <= tol || (hi - lo) <= 1e-12 * self.problem.end_time {

@@ -1,0 +1,583 @@
+//! The coupled heat-and-moisture model: two unknowns per cell (moisture X and temperature T),
+//! face fluxes of water and energy with their 2x2 derivative blocks, and one backward-Euler
+//! Newton solve on the block-tridiagonal system.
+//!
+//! Per cell, in conservative form (per unit normalised area, m_i the cell's dry mass):
+//!
+//! - water:  m_i dX_i/dt = A_i F_i - A_{i+1} F_{i+1}
+//! - energy: dE_i/dt = A_i Q_i - A_{i+1} Q_{i+1},  E_i = m_i (c_s + c_w X_i) T_i
+//!
+//! with F the water flux and Q the energy flux, both positive towards face B. Inside the body
+//! Q = -k dT/ds + c_w T F: conduction plus the sensible heat the moving water carries (so that
+//! the stored energy E, and with it the energy balance, is exact; for the temperature this is
+//! rho_s (c_s + c_w X) dT/dt = div(k grad T) - c_w J.grad T, the usual equation with the small
+//! advection term). At an exposed face the surface moisture X_s and temperature T_s satisfy
+//!
+//! - rho_s D (X_c - X_s) / delta = j(X_s, T_s)          (water reaching the surface leaves)
+//! - k (T_s - T_c) / delta = h (T_air - T_s) - j L_v(T_s) (heat reaching the surface, less the
+//!   latent heat of the water evaporating there, is conducted in)
+//!
+//! where delta is the half cell. The energy entering the body through the face is
+//! h (T_air - T_s) - j (L_v(T_s) + c_w T_s): the vapour leaves with its latent heat and the
+//! sensible heat of the liquid it came from. Water and energy are thus conserved to the Newton
+//! tolerance in every solve, and the run reports both balances.
+
+use super::blocktri::{self, Block};
+use super::flux::{self, NEWTON_FLOOR, NEWTON_TOLERANCE, NewtonFailure};
+use super::problem::{
+    FaceLaw, FaceSite, InnerFace, MaterialProps, Problem, Thermal, WATER_SPECIFIC_HEAT,
+    saturated_vapour_density,
+};
+use super::state::State;
+use crate::physics::psychro::latent_heat_j_kg;
+
+/// Maximum Newton iterations per coupled backward-Euler solve.
+const MAX_NEWTON: usize = 25;
+
+const CW: f64 = WATER_SPECIFIC_HEAT;
+
+/// What one exposed face sees in a coupled run at one moment.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HeatFace {
+    /// The water law (the air-side law's vapour density is taken at the surface temperature).
+    pub law: FaceLaw,
+    /// Heat transfer coefficient, W/(m2 K).
+    pub h: f64,
+    /// Air temperature, degrees C.
+    pub t_air: f64,
+}
+
+/// Conditions at both exposed faces.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HeatFaces {
+    /// Face A.
+    pub a: HeatFace,
+    /// Face B.
+    pub b: HeatFace,
+}
+
+/// One exposed face, solved: its rates and their derivatives with respect to the cell next to it.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct FaceSolution {
+    /// Water leaving the body, kg/(m2 s) (positive when drying).
+    pub outflow: f64,
+    /// Energy entering the body, W/m2.
+    pub energy_in: f64,
+    /// Heat the air gives the surface, h (T_air - T_s), W/m2.
+    pub convective: f64,
+    /// Latent heat taken by the evaporating water, j L_v(T_s), W/m2.
+    pub latent: f64,
+    /// Surface moisture, dry fraction.
+    pub x_s: f64,
+    /// Surface temperature, degrees C.
+    pub t_s: f64,
+    /// d outflow / d (X_c, T_c).
+    pub d_outflow: [f64; 2],
+    /// d energy_in / d (X_c, T_c).
+    pub d_energy: [f64; 2],
+}
+
+/// Buffers of the coupled Newton solve, sized once.
+#[derive(Debug, Clone)]
+pub struct CoupledWorkspace {
+    /// Water flux at each face, n + 1.
+    pub water: Vec<f64>,
+    /// Energy flux at each face, n + 1.
+    pub energy: Vec<f64>,
+    /// Derivatives of each face's (water, energy) flux: rows water/energy, columns
+    /// (X_left, T_left, X_right, T_right).
+    pub deriv: Vec<[[f64; 4]; 2]>,
+    lower: Vec<Block>,
+    diag: Vec<Block>,
+    upper: Vec<Block>,
+    rhs: Vec<[f64; 2]>,
+    scratch: Vec<Block>,
+    delta: Vec<[f64; 2]>,
+    /// Round-off level of each cell's (water, energy) residual, from the last Jacobian.
+    noise: Vec<[f64; 2]>,
+    /// Linear solves done.
+    pub linear_solves: u64,
+}
+
+impl CoupledWorkspace {
+    /// Buffers for `n` cells.
+    pub fn new(n: usize) -> CoupledWorkspace {
+        CoupledWorkspace {
+            water: vec![0.0; n + 1],
+            energy: vec![0.0; n + 1],
+            deriv: vec![[[0.0; 4]; 2]; n + 1],
+            lower: vec![[0.0; 4]; n],
+            diag: vec![[0.0; 4]; n],
+            upper: vec![[0.0; 4]; n],
+            rhs: vec![[0.0; 2]; n],
+            scratch: vec![[0.0; 4]; n],
+            delta: vec![[0.0; 2]; n],
+            noise: vec![[0.0; 2]; n],
+            linear_solves: 0,
+        }
+    }
+}
+
+/// Surface figures of a coupled evaluation (area-weighted totals over the exposed faces).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct CoupledSurfaces {
+    /// Face A, when exposed.
+    pub a: Option<FaceSolution>,
+    /// Face B, when exposed.
+    pub b: Option<FaceSolution>,
+}
+
+/// Stored energy of cell `i` per unit normalised area, J/m2 (relative to liquid water and dry
+/// solid at 0 C).
+#[inline]
+fn energy(problem: &Problem, thermal: &Thermal, i: usize, x: f64, t: f64) -> f64 {
+    let cs = thermal.specific_heat[problem.cell_material[i]];
+    problem.dry_mass[i] * (cs + CW * x) * t
+}
+
+/// Heat capacity of cell `i`, J/(m2 K).
+#[inline]
+fn capacity(problem: &Problem, thermal: &Thermal, i: usize, x: f64) -> f64 {
+    let cs = thermal.specific_heat[problem.cell_material[i]];
+    problem.dry_mass[i] * (cs + CW * x)
+}
+
+/// Water and energy flux across a face inside one material, with derivatives.
+fn same_material(
+    m: &MaterialProps,
+    k: f64,
+    distance: f64,
+    (xl, tl): (f64, f64),
+    (xr, tr): (f64, f64),
+) -> (f64, f64, [[f64; 4]; 2]) {
+    let (xm, tm) = (0.5 * (xl + xr), 0.5 * (tl + tr));
+    let d = m.diffusivity.at(xm, tm);
+    let dx = m.diffusivity.slope_x(xm, tm);
+    let dt = m.diffusivity.slope_t(xm, tm);
+    let g = m.density / distance;
+    let diff = xl - xr;
+    let f = g * d * diff;
+    let f_xl = g * (0.5 * dx * diff + d);
+    let f_xr = g * (0.5 * dx * diff - d);
+    let f_t = g * 0.5 * dt * diff;
+    let kc = k / distance;
+    let q = kc * (tl - tr) + CW * tm * f;
+    let q_xl = CW * tm * f_xl;
+    let q_xr = CW * tm * f_xr;
+    let q_tl = kc + CW * (0.5 * f + tm * f_t);
+    let q_tr = -kc + CW * (0.5 * f + tm * f_t);
+    (f, q, [[f_xl, f_t, f_xr, f_t], [q_xl, q_tl, q_xr, q_tr]])
+}
+
+/// Water and energy flux across a boundary between materials: temperature continuous (the
+/// interface temperature from the two half-cell conductances in series), water activity
+/// continuous at that temperature (see `flux::interface_flux`).
+#[allow(clippy::too_many_arguments)]
+fn interface(
+    ml: &MaterialProps,
+    mr: &MaterialProps,
+    (kl, kr): (f64, f64),
+    (dl, dr): (f64, f64),
+    (xl, tl): (f64, f64),
+    (xr, tr): (f64, f64),
+    scale: f64,
+) -> (f64, f64, [[f64; 4]; 2]) {
+    let (gl, gr) = (kl / dl, kr / dr);
+    let wl = gl / (gl + gr);
+    let series = gl * gr / (gl + gr);
+    let water = |xl: f64, tl: f64, xr: f64, tr: f64| {
+        let ti = wl * tl + (1.0 - wl) * tr;
+        flux::interface_flux(ml, mr, dl, dr, xl, xr, ti)
+    };
+    let ti = wl * tl + (1.0 - wl) * tr;
+    let f = water(xl, tl, xr, tr);
+    let (ex_l, ex_r) = (1e-7 * (xl.abs() + scale), 1e-7 * (xr.abs() + scale));
+    let (et_l, et_r) = (1e-6 * (tl.abs() + 1.0), 1e-6 * (tr.abs() + 1.0));
+    let f_xl = (water(xl + ex_l, tl, xr, tr) - water(xl - ex_l, tl, xr, tr)) / (2.0 * ex_l);
+    let f_tl = (water(xl, tl + et_l, xr, tr) - water(xl, tl - et_l, xr, tr)) / (2.0 * et_l);
+    let f_xr = (water(xl, tl, xr + ex_r, tr) - water(xl, tl, xr - ex_r, tr)) / (2.0 * ex_r);
+    let f_tr = (water(xl, tl, xr, tr + et_r) - water(xl, tl, xr, tr - et_r)) / (2.0 * et_r);
+    let q = series * (tl - tr) + CW * ti * f;
+    let q_xl = CW * ti * f_xl;
+    let q_xr = CW * ti * f_xr;
+    let q_tl = series + CW * (wl * f + ti * f_tl);
+    let q_tr = -series + CW * ((1.0 - wl) * f + ti * f_tr);
+    (f, q, [[f_xl, f_tl, f_xr, f_tr], [q_xl, q_tl, q_xr, q_tr]])
+}
+
+/// The water law of a face with its vapour density taken at the surface temperature `t_s`.
+fn law_at(law: FaceLaw, t_s: f64) -> FaceLaw {
+    match law {
+        FaceLaw::AirSide { hm, rho_v_air, .. } => FaceLaw::AirSide {
+            hm,
+            c_sat: saturated_vapour_density(t_s),
+            rho_v_air,
+            t_c: t_s,
+        },
+        other => other,
+    }
+}
+
+/// Water leaving through the face by its law, at surface state (x_s, t_s).
+fn law_flux(m: &MaterialProps, law: FaceLaw, x_s: f64, t_s: f64) -> f64 {
+    match law {
+        FaceLaw::Sealed | FaceLaw::Fixed(_) => 0.0,
+        FaceLaw::Linear { k, x_eq } => k * (x_s - x_eq),
+        FaceLaw::AirSide { hm, rho_v_air, .. } => {
+            let aw = m.isotherm.water_activity(x_s, t_s).unwrap_or(0.0);
+            hm * (aw * saturated_vapour_density(t_s) - rho_v_air)
+        }
+    }
+}
+
+/// Water conducted over the half cell from the cell centre (x_c, t_c) to the surface.
+fn half_cell_flux(m: &MaterialProps, half: f64, x_c: f64, t_c: f64, x_s: f64, t_s: f64) -> f64 {
+    m.density * m.diffusivity.at(0.5 * (x_c + x_s), 0.5 * (t_c + t_s)) * (x_c - x_s) / half
+}
+
+/// The two surface equations g(s; c) = 0 for s = (X_s, T_s) and the cell c = (X_c, T_c); also
+/// the water leaving.
+fn surface_equations(
+    m: &MaterialProps,
+    k: f64,
+    site: &FaceSite,
+    face: &HeatFace,
+    s: [f64; 2],
+    c: [f64; 2],
+) -> ([f64; 2], f64) {
+    let [x_s, t_s] = s;
+    let [x_c, t_c] = c;
+    let (g1, j) = match face.law {
+        FaceLaw::Sealed => (x_s - x_c, 0.0),
+        FaceLaw::Fixed(x) => (
+            x_s - x,
+            half_cell_flux(m, site.half_width, x_c, t_c, x_s, t_s),
+        ),
+        law => {
+            let j = law_flux(m, law, x_s, t_s);
+            (
+                half_cell_flux(m, site.half_width, x_c, t_c, x_s, t_s) - j,
+                j,
+            )
+        }
+    };
+    let g2 =
+        k * (t_s - t_c) / site.half_width - face.h * (face.t_air - t_s) + j * latent_heat_j_kg(t_s);
+    ([g1, g2], j)
+}
+
+/// Solves an exposed face: for a trial surface temperature the water balance gives X_s (the
+/// isothermal face solver, robust for every law); the heat balance, which rises with T_s, is
+/// then solved for T_s by a bracketed root. Derivatives follow from the implicit-function
+/// theorem with finite-difference partials of the two surface equations.
+pub fn solve_face(
+    m: &MaterialProps,
+    k: f64,
+    site: &FaceSite,
+    face: &HeatFace,
+    x_c: f64,
+    t_c: f64,
+    scale: f64,
+) -> FaceSolution {
+    let water_at = |t_s: f64| {
+        let (j, _, x_s) =
+            flux::face_outflow(m, site, law_at(face.law, t_s), x_c, 0.5 * (t_c + t_s));
+        (j, x_s)
+    };
+    let heat = |t_s: f64| {
+        let (j, _) = water_at(t_s);
+        k * (t_s - t_c) / site.half_width - face.h * (face.t_air - t_s) + j * latent_heat_j_kg(t_s)
+    };
+    // Bracket the surface temperature, widening from the span of cell and air temperatures.
+    let (mut lo, mut hi) = (t_c.min(face.t_air), t_c.max(face.t_air));
+    let mut step = 1.0_f64.max(0.1 * (hi - lo));
+    for _ in 0..40 {
+        if heat(lo) <= 0.0 || lo < -150.0 {
+            break;
+        }
+        lo -= step;
+        step *= 2.0;
+    }
+    step = 1.0_f64.max(0.1 * (hi - lo));
+    for _ in 0..40 {
+        if heat(hi) >= 0.0 || hi > 600.0 {
+            break;
+        }
+        hi += step;
+        step *= 2.0;
+    }
+    let t_s = if hi > lo {
+        flux::bracketed_root(heat, lo, hi, 1e-13)
+    } else {
+        lo
+    };
+    let (_, x_s) = water_at(t_s);
+    // Implicit-function theorem: ds/dc = -Gs^-1 Gc.
+    let s = [x_s, t_s];
+    let c = [x_c, t_c];
+    let (_, j) = surface_equations(m, k, site, face, s, c);
+    let eps = [1e-7 * (x_s.abs() + scale), 1e-6 * (t_s.abs() + 1.0)];
+    let eps_c = [1e-7 * (x_c.abs() + scale), 1e-6 * (t_c.abs() + 1.0)];
+    let mut gs = [[0.0; 2]; 2];
+    let mut gc = [[0.0; 2]; 2];
+    let mut js = [0.0; 2];
+    let mut jc = [0.0; 2];
+    for v in 0..2 {
+        let (mut sp, mut sm) = (s, s);
+        sp[v] += eps[v];
+        sm[v] -= eps[v];
+        let (gp, jp) = surface_equations(m, k, site, face, sp, c);
+        let (gm, jm) = surface_equations(m, k, site, face, sm, c);
+        for e in 0..2 {
+            gs[e][v] = (gp[e] - gm[e]) / (2.0 * eps[v]);
+        }
+        js[v] = (jp - jm) / (2.0 * eps[v]);
+        let (mut cp, mut cm) = (c, c);
+        cp[v] += eps_c[v];
+        cm[v] -= eps_c[v];
+        let (gp, jp) = surface_equations(m, k, site, face, s, cp);
+        let (gm, jm) = surface_equations(m, k, site, face, s, cm);
+        for e in 0..2 {
+            gc[e][v] = (gp[e] - gm[e]) / (2.0 * eps_c[v]);
+        }
+        jc[v] = (jp - jm) / (2.0 * eps_c[v]);
+    }
+    let det = gs[0][0] * gs[1][1] - gs[0][1] * gs[1][0];
+    let mut ds = [[0.0; 2]; 2]; // ds[s][c]
+    if det != 0.0 && det.is_finite() {
+        let inv = [
+            [gs[1][1] / det, -gs[0][1] / det],
+            [-gs[1][0] / det, gs[0][0] / det],
+        ];
+        for (a, row) in ds.iter_mut().enumerate() {
+            for (b, entry) in row.iter_mut().enumerate() {
+                *entry = -(inv[a][0] * gc[0][b] + inv[a][1] * gc[1][b]);
+            }
+        }
+    }
+    let lv = latent_heat_j_kg(t_s);
+    let dl = 1e-4;
+    let lv_slope = (latent_heat_j_kg(t_s + dl) - latent_heat_j_kg(t_s - dl)) / (2.0 * dl);
+    let convective = face.h * (face.t_air - t_s);
+    let mut d_outflow = [0.0; 2];
+    let mut d_energy = [0.0; 2];
+    for b in 0..2 {
+        let dj = jc[b] + js[0] * ds[0][b] + js[1] * ds[1][b];
+        let dts = ds[1][b];
+        d_outflow[b] = dj;
+        d_energy[b] = -face.h * dts - (lv + CW * t_s) * dj - j * (lv_slope + CW) * dts;
+    }
+    FaceSolution {
+        outflow: j,
+        energy_in: convective - j * (lv + CW * t_s),
+        convective,
+        latent: j * lv,
+        x_s,
+        t_s,
+        d_outflow,
+        d_energy,
+    }
+}
+
+/// Evaluates every face's water and energy flux and derivative blocks at `state` into the
+/// workspace, and returns the exposed faces' solutions.
+pub fn evaluate_faces(
+    problem: &Problem,
+    thermal: &Thermal,
+    faces: &HeatFaces,
+    state: &State,
+    ws: &mut CoupledWorkspace,
+) -> CoupledSurfaces {
+    let x = &state.moisture;
+    let t = &state.temperature;
+    let n = x.len();
+    let scale = problem.moisture_scale;
+    for (k, face) in problem.inner.iter().enumerate() {
+        let k = k + 1;
+        let left = (x[k - 1], t[k - 1]);
+        let right = (x[k], t[k]);
+        let (f, q, d) = match *face {
+            InnerFace::Same { material, distance } => same_material(
+                &problem.materials[material],
+                thermal.conductivity[material],
+                distance,
+                left,
+                right,
+            ),
+            InnerFace::Interface {
+                left: ml,
+                right: mr,
+                left_half,
+                right_half,
+            } => interface(
+                &problem.materials[ml],
+                &problem.materials[mr],
+                (thermal.conductivity[ml], thermal.conductivity[mr]),
+                (left_half, right_half),
+                left,
+                right,
+                scale,
+            ),
+        };
+        ws.water[k] = f;
+        ws.energy[k] = q;
+        ws.deriv[k] = d;
+    }
+    for k in [0, n] {
+        ws.water[k] = 0.0;
+        ws.energy[k] = 0.0;
+        ws.deriv[k] = [[0.0; 4]; 2];
+    }
+    let mut out = CoupledSurfaces::default();
+    if let Some(site) = &problem.face_a {
+        let m = &problem.materials[site.material];
+        let kc = thermal.conductivity[site.material];
+        let s = solve_face(m, kc, site, &faces.a, x[site.cell], t[site.cell], scale);
+        // Face A's fluxes run towards -s: water out is -F_0, energy in is +Q_0; both depend on
+        // the cell to the face's right (cell 0).
+        ws.water[0] = -s.outflow;
+        ws.energy[0] = s.energy_in;
+        ws.deriv[0] = [
+            [0.0, 0.0, -s.d_outflow[0], -s.d_outflow[1]],
+            [0.0, 0.0, s.d_energy[0], s.d_energy[1]],
+        ];
+        out.a = Some(s);
+    }
+    if let Some(site) = &problem.face_b {
+        let m = &problem.materials[site.material];
+        let kc = thermal.conductivity[site.material];
+        let s = solve_face(m, kc, site, &faces.b, x[site.cell], t[site.cell], scale);
+        ws.water[n] = s.outflow;
+        ws.energy[n] = -s.energy_in;
+        ws.deriv[n] = [
+            [s.d_outflow[0], s.d_outflow[1], 0.0, 0.0],
+            [-s.d_energy[0], -s.d_energy[1], 0.0, 0.0],
+        ];
+        out.b = Some(s);
+    }
+    out
+}
+
+/// One backward-Euler step of the coupled model from `old` over `dt`, solved by Newton's method
+/// on the 2x2 block-tridiagonal system into `new`. Returns the exposed faces at the converged
+/// state and the iteration count.
+pub fn backward_euler(
+    problem: &Problem,
+    thermal: &Thermal,
+    faces: &HeatFaces,
+    dt: f64,
+    old: &State,
+    new: &mut State,
+    ws: &mut CoupledWorkspace,
+) -> Result<(CoupledSurfaces, usize), NewtonFailure> {
+    let n = old.moisture.len();
+    new.copy_from(old);
+    let areas = &problem.mesh.areas;
+    let mass = &problem.dry_mass;
+    let (x_scale, t_scale) = (problem.moisture_scale, thermal.temperature_scale);
+    let mut previous = f64::INFINITY;
+    let mut backtracks = 0;
+    ws.noise.fill([0.0; 2]);
+    for iteration in 0..=MAX_NEWTON {
+        let surfaces = evaluate_faces(problem, thermal, faces, new, ws);
+        // Each residual is compared with the tolerance or, where large conductances make it
+        // the larger, with the round-off of its own terms (from the last Jacobian).
+        let mut worst: f64 = 0.0;
+        for i in 0..n {
+            let (x, t) = (new.moisture[i], new.temperature[i]);
+            let water_in = areas[i] * ws.water[i] - areas[i + 1] * ws.water[i + 1];
+            let energy_in = areas[i] * ws.energy[i] - areas[i + 1] * ws.energy[i + 1];
+            let rx = mass[i] * (x - old.moisture[i]) - dt * water_in;
+            let re = energy(problem, thermal, i, x, t)
+                - energy(problem, thermal, i, old.moisture[i], old.temperature[i])
+                - dt * energy_in;
+            let cap = capacity(problem, thermal, i, x);
+            let tol_x = (NEWTON_TOLERANCE * x_scale * mass[i]).max(ws.noise[i][0]);
+            let tol_e = (NEWTON_TOLERANCE * t_scale * cap).max(ws.noise[i][1]);
+            worst = worst.max(rx.abs() / tol_x).max(re.abs() / tol_e);
+            ws.rhs[i] = [-rx, -re];
+        }
+        let floor = NEWTON_FLOOR / NEWTON_TOLERANCE;
+        let converged = worst <= 1.0 || (worst <= floor && worst > 0.1 * previous);
+        if converged && worst.is_finite() {
+            return Ok((surfaces, iteration));
+        }
+        if iteration == MAX_NEWTON {
+            break;
+        }
+        // A worse (or NaN) residual halves the last update, a few times at most.
+        let improved = worst < previous;
+        if iteration > 0 && !improved && backtracks < 4 {
+            for i in 0..n {
+                ws.delta[i][0] *= 0.5;
+                ws.delta[i][1] *= 0.5;
+                new.moisture[i] -= ws.delta[i][0];
+                new.temperature[i] -= ws.delta[i][1];
+            }
+            backtracks += 1;
+            continue;
+        }
+        if !worst.is_finite() {
+            return Err(NewtonFailure::Breakdown);
+        }
+        previous = worst;
+        backtracks = 0;
+        for i in 0..n {
+            let (x, t) = (new.moisture[i], new.temperature[i]);
+            let cs = thermal.specific_heat[problem.cell_material[i]];
+            let left = &ws.deriv[i];
+            let right = &ws.deriv[i + 1];
+            // d(stored)/d(u_i): water m_i on X; energy m_i c_w T on X, m_i (c_s + c_w X) on T.
+            let storage = [mass[i], 0.0, mass[i] * CW * t, mass[i] * (cs + CW * x)];
+            // Face i's derivatives with respect to its right cell (this one) and face i+1's with
+            // respect to its left cell (this one).
+            ws.diag[i] = [
+                storage[0] - dt * (areas[i] * left[0][2] - areas[i + 1] * right[0][0]),
+                storage[1] - dt * (areas[i] * left[0][3] - areas[i + 1] * right[0][1]),
+                storage[2] - dt * (areas[i] * left[1][2] - areas[i + 1] * right[1][0]),
+                storage[3] - dt * (areas[i] * left[1][3] - areas[i + 1] * right[1][1]),
+            ];
+            ws.lower[i] = [
+                -dt * areas[i] * left[0][0],
+                -dt * areas[i] * left[0][1],
+                -dt * areas[i] * left[1][0],
+                -dt * areas[i] * left[1][1],
+            ];
+            ws.upper[i] = [
+                dt * areas[i + 1] * right[0][2],
+                dt * areas[i + 1] * right[0][3],
+                dt * areas[i + 1] * right[1][2],
+                dt * areas[i + 1] * right[1][3],
+            ];
+        }
+        for i in 0..n {
+            let u = [new.moisture[i].abs(), new.temperature[i].abs() + 1.0];
+            let mut level = [0.0; 2];
+            for b in [&ws.lower[i], &ws.diag[i], &ws.upper[i]] {
+                level[0] += b[0].abs() * u[0] + b[1].abs() * u[1];
+                level[1] += b[2].abs() * u[0] + b[3].abs() * u[1];
+            }
+            ws.noise[i] = [
+                64.0 * f64::EPSILON * level[0],
+                64.0 * f64::EPSILON * level[1],
+            ];
+        }
+        if !blocktri::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
+            return Err(NewtonFailure::Breakdown);
+        }
+        for i in 0..n {
+            ws.delta[i] = ws.rhs[i];
+            new.moisture[i] += ws.rhs[i][0];
+            new.temperature[i] += ws.rhs[i][1];
+        }
+        ws.linear_solves += 1;
+    }
+    Err(NewtonFailure::NotConverged)
+}
+
+/// Stored energy of the whole body, J per m2 of face A (relative to 0 C).
+pub fn stored_energy(problem: &Problem, thermal: &Thermal, state: &State) -> f64 {
+    (0..state.moisture.len())
+        .map(|i| energy(problem, thermal, i, state.moisture[i], state.temperature[i]))
+        .sum()
+}

@@ -1,0 +1,32 @@
+//! The solver's state: moisture of every cell and, in coupled runs, temperature.
+
+/// Moisture (dry fraction) and temperature (degrees C) of every cell. `temperature` is empty in
+/// isothermal runs, where the product is at the air temperature.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct State {
+    /// Moisture of each cell, dry fraction.
+    pub moisture: Vec<f64>,
+    /// Temperature of each cell, degrees C; empty when isothermal.
+    pub temperature: Vec<f64>,
+}
+
+impl State {
+    /// A state of `n` cells, with temperatures when `coupled`.
+    pub fn zeros(n: usize, coupled: bool) -> State {
+        State {
+            moisture: vec![0.0; n],
+            temperature: if coupled { vec![0.0; n] } else { Vec::new() },
+        }
+    }
+
+    /// Whether temperatures are solved.
+    pub fn is_coupled(&self) -> bool {
+        !self.temperature.is_empty()
+    }
+
+    /// Copies `other` into `self` without allocating.
+    pub fn copy_from(&mut self, other: &State) {
+        self.moisture.copy_from_slice(&other.moisture);
+        self.temperature.copy_from_slice(&other.temperature);
+    }
+}
