@@ -355,3 +355,26 @@ fn issue_10_air_side_exchange_refuses_a_given_equilibrium_moisture() {
         );
     }
 }
+
+#[test]
+fn only_a_validated_case_becomes_a_solver_problem() {
+    // A case with no cells used to reach the mesh and index out of bounds; now it cannot be
+    // turned into a ValidCase, and `solve` reports why.
+    let mut case = fixed_slab(Diffusivity::constant(1e-9), 40, 1e-4, 3600.0);
+    case.cells_per_layer = 0;
+    let problems = case.clone().validated().expect_err("no cells is refused");
+    assert!(
+        problems
+            .iter()
+            .any(|p| p.place == Place::Case("cells_per_layer")),
+        "{problems:?}"
+    );
+    assert!(matches!(
+        solver::solve(&case),
+        Err(solver::SolveError::Invalid(_))
+    ));
+    let valid = fixed_slab(Diffusivity::constant(1e-9), 40, 1e-4, 3600.0)
+        .validated()
+        .expect("valid");
+    assert_eq!(solver::Problem::new(&valid).len(), 40);
+}

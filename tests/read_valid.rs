@@ -148,7 +148,7 @@ fn expected_full_case() -> Case {
 #[test]
 fn full_case_is_read_in_si_units() {
     let p = ok(&full_case());
-    assert_eq!(p.case, expected_full_case());
+    assert_eq!(*p.case, expected_full_case());
     assert!(p.warnings.is_empty(), "{:?}", p.warnings);
     assert!(p.measured.is_empty());
     assert!(p.case.validate().is_empty());
@@ -288,7 +288,7 @@ fn csv_and_xlsx_give_the_same_case() {
     let a = parse(&from_xlsx, "charge").unwrap();
     let b = parse(&from_csv, "charge").unwrap();
     assert_eq!(a.case, b.case);
-    assert_eq!(b.case, expected_full_case());
+    assert_eq!(*b.case, expected_full_case());
     assert_eq!(a.warnings, b.warnings);
 }
 
@@ -296,7 +296,7 @@ fn csv_and_xlsx_give_the_same_case() {
 fn ods_gives_the_same_case() {
     let raw = read_bytes(&ods(&full_case()), "ods").unwrap();
     let p = parse(&raw, "stem").unwrap();
-    assert_eq!(p.case, expected_full_case());
+    assert_eq!(*p.case, expected_full_case());
     assert!(p.warnings.is_empty(), "{:?}", p.warnings);
 }
 

@@ -303,6 +303,43 @@ impl Case {
     pub fn validate(&self) -> Vec<Problem> {
         validate::validate(self)
     }
+
+    /// The case as a [`ValidCase`] when validation finds nothing wrong, else every problem.
+    pub fn validated(self) -> Result<ValidCase, Vec<Problem>> {
+        let problems = self.validate();
+        if problems.is_empty() {
+            Ok(ValidCase(self))
+        } else {
+            Err(problems)
+        }
+    }
+}
+
+/// A case that passed [`Case::validate`]: the only kind the solver accepts, so that no
+/// unchecked value (no cells, a zero thickness, a missing property) reaches the numerics.
+/// Reads like a [`Case`] (it dereferences to one); to change it, take the case out with
+/// [`ValidCase::into_case`] and validate again.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ValidCase(Case);
+
+impl ValidCase {
+    /// The checked case.
+    pub fn case(&self) -> &Case {
+        &self.0
+    }
+
+    /// Gives the case back, for changes that must be validated again.
+    pub fn into_case(self) -> Case {
+        self.0
+    }
+}
+
+impl std::ops::Deref for ValidCase {
+    type Target = Case;
+
+    fn deref(&self) -> &Case {
+        &self.0
+    }
 }
 
 impl Material {

@@ -70,9 +70,9 @@ pub enum SolveError {
 
 /// Validates and runs a case with no cancellation or progress.
 pub fn solve(case: &Case) -> Result<RunResult, SolveError> {
-    let problems = case.validate();
-    if let Some(first) = problems.first() {
-        return Err(SolveError::Invalid(first.to_string()));
-    }
-    run(&Problem::new(case), &RunControl::default())
+    let valid = case
+        .clone()
+        .validated()
+        .map_err(|problems| SolveError::Invalid(problems[0].to_string()))?;
+    run(&Problem::new(&valid), &RunControl::default())
 }

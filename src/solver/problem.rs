@@ -1,7 +1,7 @@
 //! The discrete problem: a mesh, per-cell properties and a schedule whose surface conditions can
 //! be evaluated at any time. Built once from a [`Case`] and then only borrowed.
 
-use crate::case::{Case, Exchange, Step};
+use crate::case::{Case, Exchange, Step, ValidCase};
 use crate::physics::{self, Diffusivity, Isotherm};
 
 use super::mesh::{Mesh, Refine};
@@ -196,7 +196,8 @@ pub struct Problem {
 
 impl Problem {
     /// Builds the discrete problem from a validated case.
-    pub fn new(case: &Case) -> Problem {
+    pub fn new(case: &ValidCase) -> Problem {
+        let case: &Case = case;
         let n_layers = case.layers.len();
         // A single layer exposed on both faces is two one-face halves back to back: each half
         // gets the cells and grading a one-face layer would, so both faces are resolved alike.

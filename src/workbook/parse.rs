@@ -21,7 +21,7 @@ mod sheets;
 
 use std::fmt;
 
-use crate::case::{Case, Place};
+use crate::case::{Case, Place, ValidCase};
 use crate::workbook::raw::RawBook;
 
 use context::{Ctx, Loc};
@@ -98,7 +98,7 @@ pub struct InputRecord {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Parsed {
     /// The checked case; [`Case::validate`] found nothing wrong with it.
-    pub case: Case,
+    pub case: ValidCase,
     /// Warnings, each `SHEET!CELL: text` (or `SHEET: text`), in sheet and cell order.
     pub warnings: Vec<String>,
     /// Rows of the `measured` sheet, empty when there is none.
@@ -254,6 +254,17 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
     }
     let mut warnings = ctx.warnings;
     warnings.sort_by_key(|(l, _)| l.order);
+    // Every problem validation reports was reported above, so this only wraps the case.
+    let case = case.validated().map_err(|problems| {
+        problems
+            .into_iter()
+            .map(|p| InputProblem {
+                sheet: String::new(),
+                cell: String::new(),
+                problem: p.to_string(),
+            })
+            .collect::<Vec<_>>()
+    })?;
     Ok(Parsed {
         case,
         warnings: warnings
