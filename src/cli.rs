@@ -102,6 +102,12 @@ pub enum Command {
     },
     /// Run the built-in analytical checks (series solutions against the engine) and print a table.
     Verify,
+    /// Internal: read spreadsheet bytes from standard input in a memory-limited child process.
+    #[command(name = "read-cells-child", hide = true)]
+    ReadCellsChild {
+        /// The extension of the file the bytes came from.
+        extension: String,
+    },
 }
 
 /// How a command ended, for the exit code.
@@ -153,7 +159,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.rescan = secs(rescan_secs, "--rescan-secs")?;
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.grace = secs(grace_secs, "--grace-secs")?;
-            watch::watch(&opts, Arc::new(Pipeline::default()))?;
+            watch::watch(&opts, Arc::new(Pipeline::isolated()))?;
             Ok(Outcome::Ok)
         }
         Command::Batch {
@@ -173,7 +179,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.settle = Duration::from_millis(settle_ms);
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.progress = io::stderr().is_terminal();
-            let summary = watch::batch(&opts, Arc::new(Pipeline::default()))?;
+            let summary = watch::batch(&opts, Arc::new(Pipeline::isolated()))?;
             print(&summary.to_string())?;
             let interrupted = summary
                 .skipped
@@ -191,6 +197,12 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         }
         Command::New { kind, file } => new(&kind, &file),
         Command::Verify => verify(),
+        Command::ReadCellsChild { extension } => {
+            match crate::workbook::read::child_main(&extension) {
+                0 => Ok(Outcome::Ok),
+                code => bail!("the reader process failed ({code})"),
+            }
+        }
     }
 }
 
@@ -203,6 +215,7 @@ fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<O
         out_dir: out,
         csv,
         progress: io::stderr().is_terminal(),
+        ..Pipeline::isolated()
     };
     let cancel = AtomicBool::new(false);
     let mut outcome = Outcome::Ok;

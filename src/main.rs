@@ -16,6 +16,11 @@ fn main() -> ExitCode {
             return ExitCode::from(code);
         }
     };
+    // The reader child process answers on stdout only; it logs nothing.
+    if let cli::Command::ReadCellsChild { extension } = &cli.command {
+        let code = dampfront::workbook::read::child_main(extension);
+        return ExitCode::from(u8::try_from(code).unwrap_or(2));
+    }
     cli::init_logging(cli.log_json);
     match cli::run(cli) {
         Ok(Outcome::Ok) => ExitCode::SUCCESS,

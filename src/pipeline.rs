@@ -12,7 +12,7 @@ use crate::check;
 use crate::solver::{self, Problem, RunControl, RunStatus, SolveError};
 use crate::watch::{self, Attempt, Report, Status};
 use crate::workbook::parse::{self, InputProblem};
-use crate::workbook::read::{self, ReadError};
+use crate::workbook::read::{self, Isolation, ReadError};
 use crate::workbook::write;
 
 /// Where and what to write.
@@ -24,6 +24,9 @@ pub struct Pipeline {
     pub csv: bool,
     /// Show a progress bar on standard error for runs longer than a second.
     pub progress: bool,
+    /// How spreadsheets are read: in this process, or in a memory-limited child process so
+    /// that no input can end the program.
+    pub isolation: Isolation,
 }
 
 /// The outcome of one file, with the problems for the command line to print.
@@ -62,6 +65,14 @@ pub fn problem_line(file: &Path, p: &InputProblem) -> String {
 }
 
 impl Pipeline {
+    /// The settings of the command line: spreadsheets read in a child process of this program.
+    pub fn isolated() -> Pipeline {
+        Pipeline {
+            isolation: Isolation::this_program(),
+            ..Pipeline::default()
+        }
+    }
+
     fn output(&self, path: PathBuf) -> PathBuf {
         match (&self.out_dir, path.file_name()) {
             (Some(dir), Some(name)) => dir.join(name),
@@ -114,7 +125,7 @@ impl Pipeline {
         attempt: Attempt,
         cancel: &AtomicBool,
     ) -> (Report, Vec<InputProblem>) {
-        let (book, bytes) = match read::read_file(input) {
+        let (book, bytes) = match read::read_file_with(input, &self.isolation) {
             Ok(ok) => ok,
             Err(ReadError::Io { .. }) if attempt != Attempt::Final => {
                 return (not_ready("the file could not be read yet"), Vec::new());
