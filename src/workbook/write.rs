@@ -648,10 +648,13 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
         Some(d) if !d.as_os_str().is_empty() => d,
         _ => Path::new("."),
     };
-    let mut tmp = tempfile::Builder::new()
-        .prefix(".dampfront-")
-        .suffix(".tmp")
-        .tempfile_in(dir)?;
+    let mut builder = tempfile::Builder::new();
+    builder.prefix(".dampfront-").suffix(".tmp");
+    // Created rw for everyone less the umask, as any file a user saves (tempfile's default is
+    // owner-only, which locks colleagues on a shared folder out of the results).
+    #[cfg(unix)]
+    builder.permissions(std::os::unix::fs::PermissionsExt::from_mode(0o666));
+    let mut tmp = builder.tempfile_in(dir)?;
     tmp.write_all(bytes)?;
     tmp.as_file().sync_all()?;
     tmp.persist(path).map_err(|e| e.error)?;
