@@ -411,3 +411,27 @@ fn the_reported_time_includes_the_waits_between_tries() {
         summary.rows[0].seconds
     );
 }
+
+#[test]
+fn links_out_of_the_folder_are_neither_read_nor_answered_beside() {
+    // Before: a symlinked sub-folder was followed and its results written outside; a
+    // symlinked input was read from outside.
+    let outside = Scratch::new();
+    outside.write("far.csv", "x");
+    let dir = Scratch::new();
+    dir.write("own.csv", "x");
+    std::os::unix::fs::symlink(outside.path(), dir.file("linked")).unwrap();
+    std::os::unix::fs::symlink(outside.file("far.csv"), dir.file("ext.csv")).unwrap();
+    // A link to a file inside the folder stays an input.
+    std::os::unix::fs::symlink(dir.file("own.csv"), dir.file("alias.csv")).unwrap();
+    let fake = Fake::solving();
+    let opts = BatchOptions {
+        recursive: true,
+        ..quick_batch(dir.path())
+    };
+    let summary = run(&opts, &fake);
+    let mut files: Vec<String> = fake.calls().into_iter().map(|c| c.file).collect();
+    files.sort();
+    assert_eq!(files, ["alias.csv", "own.csv"], "{summary:?}");
+    assert_eq!(outside.names(), ["far.csv"]);
+}
