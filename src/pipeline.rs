@@ -207,9 +207,16 @@ impl Pipeline {
             input_sha256: &sha,
         });
         let result_path = self.output(watch::result_path(input));
-        let written = bytes
-            .map_err(|e| e.to_string())
-            .and_then(|b| write::write_atomically(&result_path, &b).map_err(|e| e.to_string()));
+        let bytes = match bytes {
+            Ok(b) => b,
+            // The workbook could not be built from what the input holds: an input problem,
+            // answered by an errors workbook rather than a system error with nothing written.
+            Err(e) => {
+                let text = format!("the result workbook could not be built from this input: {e}");
+                return self.fail(input, vec![problem("", "", text)]);
+            }
+        };
+        let written = write::write_atomically(&result_path, &bytes).map_err(|e| e.to_string());
         if let Err(e) = written {
             return (
                 Report {

@@ -215,3 +215,34 @@ fn a_valid_case_still_solves_through_the_reader_process() {
     assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
     assert!(dir.path().join("ok.result.xlsx").exists());
 }
+
+#[test]
+fn a_title_that_looks_like_a_cell_range_still_gives_a_result() {
+    // Before: "Drying curve: kiln X!A1" was taken for a chart range; exit 2, nothing written.
+    let dir = scratch();
+    write_csv(&dir.path().join("range.csv"), &series_case("kiln X!A1"));
+    let out = run_in(dir.path(), &["solve", "range.csv"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    assert!(dir.path().join("range.result.xlsx").exists());
+    keep_outputs(dir.path(), "cli_hostile");
+}
+
+#[test]
+fn profile_hours_after_the_end_give_a_warning_and_a_result() {
+    // Before: "Chart must contain at least one series"; exit 2, nothing written.
+    let dir = scratch();
+    let mut case = series_case("late profiles");
+    case[0].1[5][1] = V::T("50, 60");
+    write_csv(&dir.path().join("late.csv"), &case);
+    let out = run_in(dir.path(), &["solve", "late.csv"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    let result = dir.path().join("late.result.xlsx");
+    let mut wb = open_workbook_auto(&result).unwrap();
+    let summary = wb.worksheet_range("summary").unwrap();
+    let text: Vec<String> = summary.cells().map(|(_, _, c)| c.to_string()).collect();
+    assert!(
+        text.iter().any(|t| t.contains("before some profile_hours")),
+        "{text:?}"
+    );
+    keep_outputs(dir.path(), "cli_hostile");
+}

@@ -47,3 +47,22 @@ fn outputs_follow_the_umask_like_any_saved_file() {
         assert_eq!(mode(&dir.path().join("bad.errors.xlsx")), expected);
     }
 }
+
+#[test]
+fn csv_outputs_keep_formula_like_labels_as_text() {
+    // Before: a step label such as =HYPERLINK(...) went raw into curves.csv, where a
+    // spreadsheet program would run it.
+    let dir = scratch();
+    let mut case = series_case("csv labels");
+    case[3].1[1][0] = support::books::V::T("=HYPERLINK(\"http://example.invalid\",\"x\")");
+    write_csv(&dir.path().join("lab.csv"), &case);
+    let out = support::run_in(dir.path(), &["solve", "--csv", "lab.csv"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    let curves = std::fs::read_to_string(dir.path().join("lab.curves.csv")).unwrap();
+    assert!(curves.contains("\"'=HYPERLINK("), "{curves}");
+    for line in curves.lines() {
+        for field in line.split(',') {
+            assert!(!field.starts_with(['=', '+', '@']), "{field} in {line}");
+        }
+    }
+}
