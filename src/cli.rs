@@ -42,6 +42,9 @@ pub enum Command {
         /// Also write <stem>.curves.csv and <stem>.profiles.csv.
         #[arg(long)]
         csv: bool,
+        /// Seconds one case may compute before it is stopped with a message.
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        case_seconds: f64,
     },
     /// Watch a folder and answer every new or changed workbook with its result; runs until
     /// SIGINT or SIGTERM.
@@ -69,6 +72,9 @@ pub enum Command {
         /// How long running cases may finish after SIGINT/SIGTERM, s.
         #[arg(long, default_value_t = 30.0, hide = true)]
         grace_secs: f64,
+        /// Seconds one case may compute before it is stopped with a message.
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        case_seconds: f64,
     },
     /// One pass over a folder with the watcher's rules, then a closing table.
     Batch {
@@ -92,6 +98,9 @@ pub enum Command {
         /// Age after which an abandoned lock is taken over, s.
         #[arg(long, default_value_t = 600.0, hide = true)]
         stale_lock_secs: f64,
+        /// Seconds one case may compute before it is stopped with a message.
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        case_seconds: f64,
     },
     /// Write a ready-to-run example workbook: wood, food, clay or blank.
     New {
@@ -140,7 +149,12 @@ fn print(text: &str) -> anyhow::Result<()> {
 /// Runs a parsed command line.
 pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     match cli.command {
-        Command::Solve { files, out, csv } => solve(&files, out, csv),
+        Command::Solve {
+            files,
+            out,
+            csv,
+            case_seconds,
+        } => solve(&files, out, csv, pipeline(case_seconds)?),
         Command::Watch {
             dir,
             jobs: j,
@@ -150,6 +164,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             rescan_secs,
             stale_lock_secs,
             grace_secs,
+            case_seconds,
         } => {
             let mut opts = WatchOptions::new(dir);
             opts.jobs = jobs(j);
@@ -159,7 +174,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.rescan = secs(rescan_secs, "--rescan-secs")?;
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.grace = secs(grace_secs, "--grace-secs")?;
-            watch::watch(&opts, Arc::new(Pipeline::isolated()))?;
+            watch::watch(&opts, Arc::new(pipeline(case_seconds)?))?;
             Ok(Outcome::Ok)
         }
         Command::Batch {
@@ -170,6 +185,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             recursive,
             settle_ms,
             stale_lock_secs,
+            case_seconds,
         } => {
             let mut opts = BatchOptions::new(dir);
             opts.jobs = jobs(j);
@@ -179,7 +195,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.settle = Duration::from_millis(settle_ms);
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.progress = io::stderr().is_terminal();
-            let summary = watch::batch(&opts, Arc::new(Pipeline::isolated()))?;
+            let summary = watch::batch(&opts, Arc::new(pipeline(case_seconds)?))?;
             print(&summary.to_string())?;
             let interrupted = summary
                 .skipped
@@ -206,7 +222,22 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     }
 }
 
-fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<Outcome> {
+/// The pipeline of the commands that run cases: spreadsheets read in a child process, each
+/// case stopped after `case_seconds` of computing.
+fn pipeline(case_seconds: f64) -> anyhow::Result<Pipeline> {
+    secs(case_seconds, "--case-seconds")?;
+    Ok(Pipeline {
+        case_seconds: Some(case_seconds),
+        ..Pipeline::isolated()
+    })
+}
+
+fn solve(
+    files: &[PathBuf],
+    out: Option<PathBuf>,
+    csv: bool,
+    base: Pipeline,
+) -> anyhow::Result<Outcome> {
     if let Some(dir) = &out {
         std::fs::create_dir_all(dir)
             .with_context(|| format!("could not create the output folder {}", dir.display()))?;
@@ -215,7 +246,7 @@ fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<O
         out_dir: out,
         csv,
         progress: io::stderr().is_terminal(),
-        ..Pipeline::isolated()
+        ..base
     };
     let cancel = AtomicBool::new(false);
     let mut outcome = Outcome::Ok;

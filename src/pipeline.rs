@@ -3,7 +3,7 @@
 
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
-use std::time::Instant;
+use std::time::{Duration, Instant};
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use sha2::{Digest, Sha256};
@@ -27,6 +27,8 @@ pub struct Pipeline {
     /// How spreadsheets are read: in this process, or in a memory-limited child process so
     /// that no input can end the program.
     pub isolation: Isolation,
+    /// Seconds one case may compute before it is stopped with a message; `None`: no limit.
+    pub case_seconds: Option<f64>,
 }
 
 /// The outcome of one file, with the problems for the command line to print.
@@ -69,6 +71,7 @@ impl Pipeline {
     pub fn isolated() -> Pipeline {
         Pipeline {
             isolation: Isolation::this_program(),
+            case_seconds: Some(crate::limits::CASE_SECONDS),
             ..Pipeline::default()
         }
     }
@@ -169,9 +172,16 @@ impl Pipeline {
             }
             bar.set_position((fraction.clamp(0.0, 1.0) * 1000.0) as u64);
         };
+        let deadline = self.case_seconds.and_then(|s| {
+            Some((
+                started.checked_add(Duration::try_from_secs_f64(s).ok()?)?,
+                s,
+            ))
+        });
         let control = RunControl {
             cancel: Some(cancel),
             progress: self.progress.then_some(&show as &dyn Fn(f64)),
+            deadline,
         };
         let solved = solver::run(&problem_data, &control);
         bar.finish_and_clear();

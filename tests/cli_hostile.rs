@@ -246,3 +246,95 @@ fn profile_hours_after_the_end_give_a_warning_and_a_result() {
     );
     keep_outputs(dir.path(), "cli_hostile");
 }
+
+/// The series case with one material row carrying an isotherm and the given constants.
+fn with_isotherm(kind: &'static str, a: f64, b: f64, c: f64) -> Vec<support::books::Sheet> {
+    use V::*;
+    let mut case = series_case("isotherm extremes");
+    case[2].1 = vec![
+        vec![
+            T("material"),
+            T("dry_density_kg_m3"),
+            T("d_ref_m2_s"),
+            T("isotherm"),
+            T("iso_a"),
+            T("iso_b"),
+            T("iso_c"),
+        ],
+        vec![T("demo"), N(450.0), N(5e-10), T(kind), N(a), N(b), N(c)],
+    ];
+    case
+}
+
+#[test]
+fn extreme_isotherm_constants_are_refused_at_their_cells() {
+    // Before: each ran for minutes. Columns: E iso_a, F iso_b, G iso_c.
+    for (name, case, cell, text) in [
+        (
+            "gab_c.csv",
+            with_isotherm("gab", 0.08, 1e308, 0.8),
+            "F",
+            "GAB constant C",
+        ),
+        (
+            "gab_k.csv",
+            with_isotherm("gab", 0.08, 10.0, 5e-324),
+            "G",
+            "GAB constant K",
+        ),
+        (
+            "oswin_b.csv",
+            with_isotherm("oswin", 0.1, 1e-300, 0.0),
+            "F",
+            "Oswin constant b",
+        ),
+    ] {
+        let dir = scratch();
+        write_csv(&dir.path().join(name), &case);
+        let lines = refused(dir.path(), name, text);
+        // The materials sheet starts on line 11 of the CSV (after [case], 6 rows, [layers],
+        // 2 rows, [materials]); its value row is line 13.
+        assert!(
+            lines
+                .iter()
+                .any(|l| l.starts_with(&format!("materials|{cell}13|")) && l.contains(text)),
+            "{name}: {lines:?}"
+        );
+    }
+}
+
+#[test]
+fn a_vanishing_end_time_or_tolerance_is_refused() {
+    for (row, value, text) in [
+        (3usize, V::N(1e-20), "end time"),
+        (3, V::N(1e7), "end time"),
+    ] {
+        let dir = scratch();
+        let mut case = series_case("tiny");
+        case[0].1[row][1] = value;
+        write_csv(&dir.path().join("tiny.csv"), &case);
+        let lines = refused(dir.path(), "tiny.csv", text);
+        assert!(lines.iter().any(|l| l.starts_with("case|B5|")), "{lines:?}");
+    }
+    let dir = scratch();
+    let mut case = series_case("tight");
+    case[0].1.push(vec![V::T("tolerance"), V::N(2e-16)]);
+    write_csv(&dir.path().join("tight.csv"), &case);
+    let lines = refused(dir.path(), "tight.csv", "tolerance");
+    assert!(lines.iter().any(|l| l.starts_with("case|B8|")), "{lines:?}");
+}
+
+#[test]
+fn a_case_over_its_time_budget_stops_with_a_message_naming_the_option() {
+    let dir = scratch();
+    write_xlsx(
+        &dir.path().join("slow.xlsx"),
+        &support::books::slow_case("slow", 1500.0, 1e-7),
+    );
+    let out = run_in(dir.path(), &["solve", "--case-seconds", "0.3", "slow.xlsx"]);
+    let shown = output_text(&out);
+    assert_eq!(out.status.code(), Some(1), "{shown}");
+    assert!(shown.contains("--case-seconds"), "{shown}");
+    let lines = problems(&dir.path().join("slow.errors.xlsx"));
+    assert!(lines.iter().any(|l| l.contains("time budget")), "{lines:?}");
+}

@@ -67,7 +67,7 @@ impl fmt::Display for Problem {
 }
 
 /// The most cells a case may ask for: beyond this a 1-D run gains nothing and memory grows.
-pub const MAX_TOTAL_CELLS: usize = 100_000;
+pub const MAX_TOTAL_CELLS: usize = crate::limits::MAX_TOTAL_CELLS;
 
 struct Checker {
     problems: Vec<Problem>,
@@ -103,7 +103,9 @@ impl Checker {
         if value.is_finite() && value > 0.0 && !(lo..=hi).contains(&value) {
             self.push(
                 place,
-                format!("{what} {value} is outside the plausible range {lo} to {hi} {unit}"),
+                format!("{what} {value} is outside the plausible range {lo} to {hi} {unit}")
+                    .trim_end()
+                    .to_string(),
             );
         }
     }
@@ -148,6 +150,16 @@ fn check_settings(case: &Case, c: &mut Checker) {
         );
     }
     c.positive(Place::Case("end_hours"), "end_hours", case.end_time);
+    // From 3.6 s to about 114 years: beyond either end the number is a unit mistake, and a
+    // vanishing end time or tolerance makes the step control crawl.
+    c.within(
+        Place::Case("end_hours"),
+        "end time (s)",
+        case.end_time,
+        3.6,
+        3.6e9,
+        "s",
+    );
     if let Some(x) = case.target_moisture {
         c.non_negative(Place::Case("target_moisture_pct"), "target_moisture_pct", x);
     }
@@ -176,11 +188,11 @@ fn check_settings(case: &Case, c: &mut Checker) {
         "flow_length_mm",
         case.flow_length,
     );
-    if !(case.tolerance.is_finite() && case.tolerance > 0.0 && case.tolerance < 0.1) {
+    if !(case.tolerance.is_finite() && case.tolerance >= 1e-10 && case.tolerance < 0.1) {
         c.push(
             Place::Case("tolerance"),
             format!(
-                "tolerance must be a number between 0 and 0.1, found {}",
+                "tolerance must be a number from 1e-10 to 0.1, found {}",
                 case.tolerance
             ),
         );
@@ -245,12 +257,59 @@ fn check_materials(case: &Case, c: &mut Checker) {
         for msg in m.isotherm.validate() {
             c.push(at("isotherm"), msg);
         }
+        isotherm_ranges(&m.isotherm, c, &at);
         if let Some(k) = m.conductivity {
             c.positive(at("conductivity_w_mk"), "conductivity_w_mk", k);
         }
         if let Some(cp) = m.specific_heat {
             c.positive(at("specific_heat_j_kgk"), "specific_heat_j_kgk", cp);
         }
+    }
+}
+
+/// Plausibility ranges of the isotherm constants, each reported at its own column. Values far
+/// outside them (a GAB C of 1e308, a K of 5e-324, an Oswin b of 1e-300) are typing or unit
+/// mistakes, and they make the inverse isotherm so steep that a run crawls for minutes.
+/// The ranges are wide around published fits for foods, wood, clays and polymers (common
+/// practice: GAB C about 1-500, K 0.5-1; Oswin b 0.1-1.5; modified Henderson b 1-3, c 0-300).
+fn isotherm_ranges(iso: &Isotherm, c: &mut Checker, at: &dyn Fn(&'static str) -> Place) {
+    match *iso {
+        Isotherm::Gab { c: gab_c, k, .. } => {
+            c.within(at("iso_b"), "GAB constant C (iso_b)", gab_c, 0.01, 1e6, "");
+            c.within(at("iso_c"), "GAB constant K (iso_c)", k, 0.01, 1.0, "");
+        }
+        Isotherm::Oswin { a, b } => {
+            c.within(at("iso_a"), "Oswin constant a (iso_a)", a, 1e-4, 5.0, "");
+            c.within(at("iso_b"), "Oswin constant b (iso_b)", b, 0.01, 10.0, "");
+        }
+        Isotherm::Henderson { a, b, c: hc } => {
+            c.within(
+                at("iso_a"),
+                "Henderson constant a (iso_a)",
+                a,
+                1e-12,
+                10.0,
+                "",
+            );
+            c.within(
+                at("iso_b"),
+                "Henderson constant b (iso_b)",
+                b,
+                0.05,
+                20.0,
+                "",
+            );
+            if hc.is_finite() && !(-200.0..=2000.0).contains(&hc) {
+                c.push(
+                    at("iso_c"),
+                    format!(
+                        "Henderson constant c (iso_c) {hc} is outside the plausible range -200 to \
+                         2000 C"
+                    ),
+                );
+            }
+        }
+        Isotherm::None | Isotherm::Wood => {}
     }
 }
 
