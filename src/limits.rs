@@ -41,8 +41,8 @@ pub const READER_WALL_SECS: u64 = 30;
 pub const MAX_TOTAL_CELLS: usize = 100_000;
 
 /// Most output cells one result may hold: curve rows times curve columns plus profile
-/// positions times profile times. 20 million cells are about a gigabyte of workbook in memory.
-pub const MAX_OUTPUT_CELLS: u64 = 5_000_000;
+/// positions times profile times (a workbook writer holds every cell in memory).
+pub const MAX_OUTPUT_CELLS: u64 = 2_000_000;
 
 /// Most profile times in `profile_hours`.
 pub const MAX_PROFILE_TIMES: usize = 1000;

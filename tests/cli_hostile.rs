@@ -338,3 +338,34 @@ fn a_case_over_its_time_budget_stops_with_a_message_naming_the_option() {
     let lines = problems(&dir.path().join("slow.errors.xlsx"));
     assert!(lines.iter().any(|l| l.contains("time budget")), "{lines:?}");
 }
+
+#[test]
+fn settings_that_multiply_into_a_huge_result_are_refused_at_their_cells() {
+    // Before: 1e6 output rows x 200 layers, or 100,000 cells x 1000 profiles, took 4 to over
+    // 10 GB of memory.
+    use V::*;
+    let dir = scratch();
+    let mut case = series_case("many rows");
+    case[0].1[3][1] = N(100_000.0); // end_hours
+    case[0].1[4][1] = N(6.0); // output_every_min: a million rows
+    let mut layers = vec![case[1].1[0].clone()];
+    for _ in 0..200 {
+        layers.push(vec![T("slab"), T("demo"), N(0.1), N(60.0)]);
+    }
+    case[1].1 = layers;
+    write_csv(&dir.path().join("rows.csv"), &case);
+    let lines = refused(
+        dir.path(),
+        "rows.csv",
+        "more than the 2000000 a result may hold",
+    );
+    assert!(lines.iter().any(|l| l.starts_with("case|B6|")), "{lines:?}");
+
+    let mut case = series_case("many profiles");
+    case[0].1.push(vec![T("cells_per_layer"), N(100_000.0)]);
+    let times: Vec<String> = (0..1000).map(|i| format!("{}", i as f64 * 0.01)).collect();
+    case[0].1[5][1] = T(Box::leak(times.join(", ").into_boxed_str()));
+    write_csv(&dir.path().join("profiles.csv"), &case);
+    let lines = refused(dir.path(), "profiles.csv", "list fewer profile_hours");
+    assert!(lines.iter().any(|l| l.starts_with("case|B7|")), "{lines:?}");
+}

@@ -165,7 +165,7 @@ fn check_settings(case: &Case, c: &mut Checker) {
     }
     if let Some(dt) = case.output_every {
         c.positive(Place::Case("output_every_min"), "output_every_min", dt);
-        if dt.is_finite() && dt > 0.0 && case.end_time / dt > 1e6 {
+        if dt.is_finite() && dt > 0.0 && case.end_time / dt > crate::limits::MAX_OUTPUT_ROWS {
             c.push(
                 Place::Case("output_every_min"),
                 "output_every_min asks for more than a million rows; choose a larger spacing",
@@ -173,7 +173,7 @@ fn check_settings(case: &Case, c: &mut Checker) {
         }
     }
     if let Some(times) = &case.profile_times {
-        if times.len() > 1000 {
+        if times.len() > crate::limits::MAX_PROFILE_TIMES {
             c.push(
                 Place::Case("profile_hours"),
                 "profile_hours lists more than 1000 times",
@@ -183,6 +183,7 @@ fn check_settings(case: &Case, c: &mut Checker) {
             c.non_negative(Place::Case("profile_hours"), "every profile time", t);
         }
     }
+    output_size(case, c);
     c.positive(
         Place::Case("flow_length_mm"),
         "flow_length_mm",
@@ -264,6 +265,44 @@ fn check_materials(case: &Case, c: &mut Checker) {
         if let Some(cp) = m.specific_heat {
             c.positive(at("specific_heat_j_kgk"), "specific_heat_j_kgk", cp);
         }
+    }
+}
+
+/// Refuses settings that multiply into a result too large to hold or write: curve rows times
+/// curve columns, and profile positions times profile times, against
+/// [`crate::limits::MAX_OUTPUT_CELLS`].
+fn output_size(case: &Case, c: &mut Checker) {
+    use crate::limits::MAX_OUTPUT_CELLS;
+    let interval = case.output_interval();
+    if !(case.end_time.is_finite() && interval.is_finite() && interval > 0.0) {
+        return;
+    }
+    // Rows: one per output time, plus one at every schedule change; columns: the fixed
+    // curve columns and one per layer.
+    let rows = case.end_time / interval + case.schedule.len() as f64 + 2.0;
+    let curve_cells = rows * (12 + case.layers.len()) as f64;
+    let positions = case.cells_per_layer.saturating_mul(case.layers.len()) as f64 + 2.0;
+    let times = case.profile_times.as_ref().map_or(6, Vec::len) as f64;
+    let profile_cells = positions * times;
+    let limit = MAX_OUTPUT_CELLS as f64;
+    if curve_cells > limit {
+        c.push(
+            Place::Case("output_every_min"),
+            format!(
+                "the curves would hold about {curve_cells:.3e} cells ({rows:.0} rows), more than \
+                 the {MAX_OUTPUT_CELLS} a result may hold; choose a larger output_every_min"
+            ),
+        );
+    }
+    if profile_cells > limit {
+        c.push(
+            Place::Case("profile_hours"),
+            format!(
+                "the profiles would hold about {profile_cells:.3e} cells ({positions:.0} \
+                 positions x {times:.0} times), more than the {MAX_OUTPUT_CELLS} a result may \
+                 hold; list fewer profile_hours or use fewer cells_per_layer"
+            ),
+        );
     }
 }
 
