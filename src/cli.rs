@@ -42,6 +42,9 @@ pub enum Command {
         /// Also write <stem>.curves.csv and <stem>.profiles.csv.
         #[arg(long)]
         csv: bool,
+        /// Seconds one case may compute before it is stopped with a message.
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        case_seconds: f64,
     },
     /// Watch a folder and answer every new or changed workbook with its result; runs until
     /// SIGINT or SIGTERM.
@@ -69,6 +72,9 @@ pub enum Command {
         /// How long running cases may finish after SIGINT/SIGTERM, s.
         #[arg(long, default_value_t = 30.0, hide = true)]
         grace_secs: f64,
+        /// Seconds one case may compute before it is stopped with a message.
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        case_seconds: f64,
     },
     /// One pass over a folder with the watcher's rules, then a closing table.
     Batch {
@@ -92,6 +98,9 @@ pub enum Command {
         /// Age after which an abandoned lock is taken over, s.
         #[arg(long, default_value_t = 600.0, hide = true)]
         stale_lock_secs: f64,
+        /// Seconds one case may compute before it is stopped with a message.
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        case_seconds: f64,
     },
     /// Write a ready-to-run example workbook: wood, food, clay or blank.
     New {
@@ -102,6 +111,12 @@ pub enum Command {
     },
     /// Run the built-in analytical checks (series solutions against the engine) and print a table.
     Verify,
+    /// Internal: read spreadsheet bytes from standard input in a memory-limited child process.
+    #[command(name = "read-cells-child", hide = true)]
+    ReadCellsChild {
+        /// The extension of the file the bytes came from.
+        extension: String,
+    },
 }
 
 /// How a command ended, for the exit code.
@@ -113,10 +128,20 @@ pub enum Outcome {
     Problems,
 }
 
+/// The longest time any option takes, s (about 31 years): larger values would overflow the
+/// clock arithmetic.
+const MAX_OPTION_SECS: f64 = 1e9;
+
 fn secs(v: f64, what: &str) -> anyhow::Result<Duration> {
+    if !(0.0..=MAX_OPTION_SECS).contains(&v) {
+        bail!("{what} must be a number of seconds from 0 to {MAX_OPTION_SECS:e}, found {v}");
+    }
     Duration::try_from_secs_f64(v)
         .with_context(|| format!("{what} must be a number of seconds >= 0"))
 }
+
+/// The shortest polling interval, s: below it polling would keep a core busy.
+const MIN_POLL_SECS: f64 = 0.1;
 
 fn jobs(j: Option<usize>) -> usize {
     j.unwrap_or(0)
@@ -134,7 +159,12 @@ fn print(text: &str) -> anyhow::Result<()> {
 /// Runs a parsed command line.
 pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     match cli.command {
-        Command::Solve { files, out, csv } => solve(&files, out, csv),
+        Command::Solve {
+            files,
+            out,
+            csv,
+            case_seconds,
+        } => solve(&files, out, csv, pipeline(case_seconds)?),
         Command::Watch {
             dir,
             jobs: j,
@@ -144,16 +174,22 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             rescan_secs,
             stale_lock_secs,
             grace_secs,
+            case_seconds,
         } => {
             let mut opts = WatchOptions::new(dir);
             opts.jobs = jobs(j);
             opts.settle = Duration::from_millis(settle_ms);
+            if let Some(p) = poll
+                && p < MIN_POLL_SECS
+            {
+                bail!("--poll must be at least {MIN_POLL_SECS} s, found {p}");
+            }
             opts.poll = poll.map(|p| secs(p, "--poll")).transpose()?;
             opts.recursive = recursive;
             opts.rescan = secs(rescan_secs, "--rescan-secs")?;
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.grace = secs(grace_secs, "--grace-secs")?;
-            watch::watch(&opts, Arc::new(Pipeline::default()))?;
+            watch::watch(&opts, Arc::new(pipeline(case_seconds)?))?;
             Ok(Outcome::Ok)
         }
         Command::Batch {
@@ -164,6 +200,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             recursive,
             settle_ms,
             stale_lock_secs,
+            case_seconds,
         } => {
             let mut opts = BatchOptions::new(dir);
             opts.jobs = jobs(j);
@@ -173,15 +210,19 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.settle = Duration::from_millis(settle_ms);
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.progress = io::stderr().is_terminal();
-            let summary = watch::batch(&opts, Arc::new(Pipeline::default()))?;
+            let summary = watch::batch(&opts, Arc::new(pipeline(case_seconds)?))?;
             print(&summary.to_string())?;
-            let interrupted = summary
-                .skipped
-                .iter()
-                .filter(|s| s.reason == watch::SkipReason::Interrupted)
-                .count();
-            if interrupted > 0 {
-                bail!("the pass was interrupted by a signal; {interrupted} input(s) were not run");
+            if summary.interrupted {
+                let n = summary.not_run();
+                bail!("the pass was interrupted by a signal; {n} input(s) were not run");
+            }
+            let locked = summary.locked();
+            if locked > 0 {
+                // Not every input ran: another runner holds them. Exit 2, as for a stop.
+                bail!(
+                    "{locked} input(s) were locked by another runner and not run by this pass; \
+                     run the pass again once that runner has finished"
+                );
             }
             Ok(if summary.any_problems() {
                 Outcome::Problems
@@ -191,10 +232,31 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         }
         Command::New { kind, file } => new(&kind, &file),
         Command::Verify => verify(),
+        Command::ReadCellsChild { extension } => {
+            match crate::workbook::read::child_main(&extension) {
+                0 => Ok(Outcome::Ok),
+                code => bail!("the reader process failed ({code})"),
+            }
+        }
     }
 }
 
-fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<Outcome> {
+/// The pipeline of the commands that run cases: spreadsheets read in a child process, each
+/// case stopped after `case_seconds` of computing.
+fn pipeline(case_seconds: f64) -> anyhow::Result<Pipeline> {
+    secs(case_seconds, "--case-seconds")?;
+    Ok(Pipeline {
+        case_seconds: Some(case_seconds),
+        ..Pipeline::isolated()
+    })
+}
+
+fn solve(
+    files: &[PathBuf],
+    out: Option<PathBuf>,
+    csv: bool,
+    base: Pipeline,
+) -> anyhow::Result<Outcome> {
     if let Some(dir) = &out {
         std::fs::create_dir_all(dir)
             .with_context(|| format!("could not create the output folder {}", dir.display()))?;
@@ -203,6 +265,7 @@ fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<O
         out_dir: out,
         csv,
         progress: io::stderr().is_terminal(),
+        ..base
     };
     let cancel = AtomicBool::new(false);
     let mut outcome = Outcome::Ok;

@@ -3,7 +3,7 @@
 
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
-use std::time::Instant;
+use std::time::{Duration, Instant};
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use sha2::{Digest, Sha256};
@@ -12,7 +12,7 @@ use crate::check;
 use crate::solver::{self, Problem, RunControl, RunStatus, SolveError};
 use crate::watch::{self, Attempt, Report, Status};
 use crate::workbook::parse::{self, InputProblem};
-use crate::workbook::read::{self, ReadError};
+use crate::workbook::read::{self, Isolation, ReadError};
 use crate::workbook::write;
 
 /// Where and what to write.
@@ -24,6 +24,11 @@ pub struct Pipeline {
     pub csv: bool,
     /// Show a progress bar on standard error for runs longer than a second.
     pub progress: bool,
+    /// How spreadsheets are read: in this process, or in a memory-limited child process so
+    /// that no input can end the program.
+    pub isolation: Isolation,
+    /// Seconds one case may compute before it is stopped with a message; `None`: no limit.
+    pub case_seconds: Option<f64>,
 }
 
 /// The outcome of one file, with the problems for the command line to print.
@@ -62,6 +67,15 @@ pub fn problem_line(file: &Path, p: &InputProblem) -> String {
 }
 
 impl Pipeline {
+    /// The settings of the command line: spreadsheets read in a child process of this program.
+    pub fn isolated() -> Pipeline {
+        Pipeline {
+            isolation: Isolation::this_program(),
+            case_seconds: Some(crate::limits::CASE_SECONDS),
+            ..Pipeline::default()
+        }
+    }
+
     fn output(&self, path: PathBuf) -> PathBuf {
         match (&self.out_dir, path.file_name()) {
             (Some(dir), Some(name)) => dir.join(name),
@@ -114,7 +128,7 @@ impl Pipeline {
         attempt: Attempt,
         cancel: &AtomicBool,
     ) -> (Report, Vec<InputProblem>) {
-        let (book, bytes) = match read::read_file(input) {
+        let (book, bytes) = match read::read_file_with(input, &self.isolation) {
             Ok(ok) => ok,
             Err(ReadError::Io { .. }) if attempt != Attempt::Final => {
                 return (not_ready("the file could not be read yet"), Vec::new());
@@ -158,9 +172,16 @@ impl Pipeline {
             }
             bar.set_position((fraction.clamp(0.0, 1.0) * 1000.0) as u64);
         };
+        let deadline = self.case_seconds.and_then(|s| {
+            Some((
+                started.checked_add(Duration::try_from_secs_f64(s).ok()?)?,
+                s,
+            ))
+        });
         let control = RunControl {
             cancel: Some(cancel),
             progress: self.progress.then_some(&show as &dyn Fn(f64)),
+            deadline,
         };
         let solved = solver::run(&problem_data, &control);
         bar.finish_and_clear();
@@ -196,9 +217,16 @@ impl Pipeline {
             input_sha256: &sha,
         });
         let result_path = self.output(watch::result_path(input));
-        let written = bytes
-            .map_err(|e| e.to_string())
-            .and_then(|b| write::write_atomically(&result_path, &b).map_err(|e| e.to_string()));
+        let bytes = match bytes {
+            Ok(b) => b,
+            // The workbook could not be built from what the input holds: an input problem,
+            // answered by an errors workbook rather than a system error with nothing written.
+            Err(e) => {
+                let text = format!("the result workbook could not be built from this input: {e}");
+                return self.fail(input, vec![problem("", "", text)]);
+            }
+        };
+        let written = write::write_atomically(&result_path, &bytes).map_err(|e| e.to_string());
         if let Err(e) = written {
             return (
                 Report {

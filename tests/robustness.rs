@@ -111,6 +111,7 @@ fn randomly_damaged_cases_are_refused_or_solved_without_panicking() {
         let control = RunControl {
             cancel: Some(&cancel),
             progress: None,
+            ..RunControl::default()
         };
         match solver::run(&problem, &control) {
             Ok(run) => {

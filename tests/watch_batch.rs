@@ -373,3 +373,65 @@ clay.csv         problems              -      0.0
 ";
     assert_eq!(summary.to_string(), expected);
 }
+
+#[test]
+fn an_unreadable_file_that_is_not_changing_gets_its_final_try_at_once() {
+    // Before: six back-offs (about 30 s with the default settle time) for a file that was not
+    // being copied at all.
+    let dir = Scratch::new();
+    dir.write("old-broken.xlsx", "not a workbook");
+    dir.set_mtime("old-broken.xlsx", -3600);
+    let fake = Fake::new(Behaviour {
+        not_ready_calls: u32::MAX,
+        ..Behaviour::default()
+    });
+    let summary = run(&quick_batch(dir.path()), &fake);
+    assert_eq!(
+        fake.attempts_of("old-broken.xlsx"),
+        [Attempt::First, Attempt::Final]
+    );
+    assert_eq!(summary.rows[0].status, Status::Problems);
+}
+
+#[test]
+fn the_reported_time_includes_the_waits_between_tries() {
+    // A fresh unreadable file is retried 50, 100, 200, 400, 800 ms apart (settle 100 ms) and
+    // then tried a final time: at least 1.55 s pass. Before, the table showed 0.0 s.
+    let dir = Scratch::new();
+    dir.write("copying.xlsx", "not yet");
+    let fake = Fake::new(Behaviour {
+        not_ready_calls: u32::MAX,
+        ..Behaviour::default()
+    });
+    let summary = run(&quick_batch(dir.path()), &fake);
+    assert!(fake.attempts_of("copying.xlsx").len() >= 3);
+    assert!(
+        summary.rows[0].seconds >= 1.5,
+        "{}",
+        summary.rows[0].seconds
+    );
+}
+
+#[test]
+fn links_out_of_the_folder_are_neither_read_nor_answered_beside() {
+    // Before: a symlinked sub-folder was followed and its results written outside; a
+    // symlinked input was read from outside.
+    let outside = Scratch::new();
+    outside.write("far.csv", "x");
+    let dir = Scratch::new();
+    dir.write("own.csv", "x");
+    std::os::unix::fs::symlink(outside.path(), dir.file("linked")).unwrap();
+    std::os::unix::fs::symlink(outside.file("far.csv"), dir.file("ext.csv")).unwrap();
+    // A link to a file inside the folder stays an input.
+    std::os::unix::fs::symlink(dir.file("own.csv"), dir.file("alias.csv")).unwrap();
+    let fake = Fake::solving();
+    let opts = BatchOptions {
+        recursive: true,
+        ..quick_batch(dir.path())
+    };
+    let summary = run(&opts, &fake);
+    let mut files: Vec<String> = fake.calls().into_iter().map(|c| c.file).collect();
+    files.sort();
+    assert_eq!(files, ["alias.csv", "own.csv"], "{summary:?}");
+    assert_eq!(outside.names(), ["far.csv"]);
+}

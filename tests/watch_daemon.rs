@@ -299,3 +299,69 @@ fn a_missing_folder_is_an_error_that_reads_as_a_sentence() {
     assert!(matches!(err, WatchError::NotAFolder { .. }));
     assert!(err.to_string().contains("is not a folder"), "{err}");
 }
+
+#[test]
+fn a_failed_input_is_not_run_again_until_it_changes_or_its_wait_is_over() {
+    // Before: reading the input raised an event and the still-stale input was run again
+    // every second or two for ever (here: at every 100 ms rescan).
+    let dir = Scratch::new();
+    dir.write("stuck.csv", "x");
+    let fake = Fake::new(Behaviour {
+        fail: true,
+        ..Behaviour::default()
+    });
+    let opts = WatchOptions {
+        rescan: Duration::from_millis(100),
+        failure_backoff: Duration::from_secs(600),
+        ..quick_watch(dir.path())
+    };
+    let daemon = Daemon::start(opts, fake.clone());
+    assert!(eventually(|| fake.calls().len() == 1));
+    // Ten rescans and the events of the read come and go.
+    std::thread::sleep(Duration::from_millis(1200));
+    assert_eq!(fake.calls().len(), 1, "{:?}", fake.calls());
+    // A change ends the wait.
+    dir.write("stuck.csv", "edited");
+    assert!(eventually(|| fake.calls().len() == 2));
+    daemon.stop().unwrap();
+}
+
+#[test]
+fn a_failed_input_is_tried_again_after_its_wait() {
+    let dir = Scratch::new();
+    dir.write("stuck.csv", "x");
+    let fake = Fake::new(Behaviour {
+        fail: true,
+        ..Behaviour::default()
+    });
+    let opts = WatchOptions {
+        rescan: Duration::from_millis(100),
+        failure_backoff: Duration::from_millis(300),
+        ..quick_watch(dir.path())
+    };
+    let daemon = Daemon::start(opts, fake.clone());
+    // 300 ms, then 600 ms, then 1.2 s: three runs come within about two seconds, not twenty.
+    assert!(eventually(|| fake.calls().len() >= 3));
+    daemon.stop().unwrap();
+}
+
+#[test]
+fn a_linked_sub_folder_leading_outside_is_not_served() {
+    let outside = Scratch::new();
+    let dir = Scratch::new();
+    let fake = Fake::solving();
+    let opts = WatchOptions {
+        recursive: true,
+        ..quick_watch(dir.path())
+    };
+    let daemon = Daemon::start(opts, fake.clone());
+    std::os::unix::fs::symlink(outside.path(), dir.file("linked")).unwrap();
+    outside.write("far.csv", "x");
+    dir.write("inner.csv", "x");
+    assert!(eventually(|| dir.file("inner.result.xlsx").exists()));
+    // Give a followed link every chance to show up.
+    std::thread::sleep(Duration::from_millis(800));
+    daemon.stop().unwrap();
+    assert_eq!(fake.runs_of("far.csv"), 0);
+    assert_eq!(outside.names(), ["far.csv"]);
+}

@@ -105,6 +105,8 @@ pub struct Behaviour {
     pub ignore_cancel: bool,
     /// Answer `Problems` (and write the errors workbook) instead of solving.
     pub problems: bool,
+    /// Answer `Failed` and write nothing (a run that failed or could not write its answer).
+    pub fail: bool,
 }
 
 /// One call the fake received.
@@ -217,6 +219,9 @@ impl Processor for Fake {
                 return self.record(input, attempt, Status::Failed, incomplete);
             }
             std::thread::sleep(Duration::from_millis(10));
+        }
+        if self.behaviour.fail {
+            return self.record(input, attempt, Status::Failed, incomplete);
         }
         if unreadable || self.behaviour.problems {
             write_atomically(&errors_path(input), b"errors");

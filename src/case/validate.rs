@@ -67,7 +67,7 @@ impl fmt::Display for Problem {
 }
 
 /// The most cells a case may ask for: beyond this a 1-D run gains nothing and memory grows.
-pub const MAX_TOTAL_CELLS: usize = 100_000;
+pub const MAX_TOTAL_CELLS: usize = crate::limits::MAX_TOTAL_CELLS;
 
 struct Checker {
     problems: Vec<Problem>,
@@ -103,7 +103,9 @@ impl Checker {
         if value.is_finite() && value > 0.0 && !(lo..=hi).contains(&value) {
             self.push(
                 place,
-                format!("{what} {value} is outside the plausible range {lo} to {hi} {unit}"),
+                format!("{what} {value} is outside the plausible range {lo} to {hi} {unit}")
+                    .trim_end()
+                    .to_string(),
             );
         }
     }
@@ -148,12 +150,22 @@ fn check_settings(case: &Case, c: &mut Checker) {
         );
     }
     c.positive(Place::Case("end_hours"), "end_hours", case.end_time);
+    // From 3.6 s to about 114 years: beyond either end the number is a unit mistake, and a
+    // vanishing end time or tolerance makes the step control crawl.
+    c.within(
+        Place::Case("end_hours"),
+        "end time (s)",
+        case.end_time,
+        3.6,
+        3.6e9,
+        "s",
+    );
     if let Some(x) = case.target_moisture {
         c.non_negative(Place::Case("target_moisture_pct"), "target_moisture_pct", x);
     }
     if let Some(dt) = case.output_every {
         c.positive(Place::Case("output_every_min"), "output_every_min", dt);
-        if dt.is_finite() && dt > 0.0 && case.end_time / dt > 1e6 {
+        if dt.is_finite() && dt > 0.0 && case.end_time / dt > crate::limits::MAX_OUTPUT_ROWS {
             c.push(
                 Place::Case("output_every_min"),
                 "output_every_min asks for more than a million rows; choose a larger spacing",
@@ -161,7 +173,7 @@ fn check_settings(case: &Case, c: &mut Checker) {
         }
     }
     if let Some(times) = &case.profile_times {
-        if times.len() > 1000 {
+        if times.len() > crate::limits::MAX_PROFILE_TIMES {
             c.push(
                 Place::Case("profile_hours"),
                 "profile_hours lists more than 1000 times",
@@ -171,16 +183,17 @@ fn check_settings(case: &Case, c: &mut Checker) {
             c.non_negative(Place::Case("profile_hours"), "every profile time", t);
         }
     }
+    output_size(case, c);
     c.positive(
         Place::Case("flow_length_mm"),
         "flow_length_mm",
         case.flow_length,
     );
-    if !(case.tolerance.is_finite() && case.tolerance > 0.0 && case.tolerance < 0.1) {
+    if !(case.tolerance.is_finite() && case.tolerance >= 1e-10 && case.tolerance < 0.1) {
         c.push(
             Place::Case("tolerance"),
             format!(
-                "tolerance must be a number between 0 and 0.1, found {}",
+                "tolerance must be a number from 1e-10 to 0.1, found {}",
                 case.tolerance
             ),
         );
@@ -310,12 +323,97 @@ fn check_materials(case: &Case, c: &mut Checker) {
         for msg in m.isotherm.validate() {
             c.push(at("isotherm"), msg);
         }
+        isotherm_ranges(&m.isotherm, c, &at);
         if let Some(k) = m.conductivity {
             c.positive(at("conductivity_w_mk"), "conductivity_w_mk", k);
         }
         if let Some(cp) = m.specific_heat {
             c.positive(at("specific_heat_j_kgk"), "specific_heat_j_kgk", cp);
         }
+    }
+}
+
+/// Refuses settings that multiply into a result too large to hold or write: curve rows times
+/// curve columns, and profile positions times profile times, against
+/// [`crate::limits::MAX_OUTPUT_CELLS`].
+fn output_size(case: &Case, c: &mut Checker) {
+    use crate::limits::MAX_OUTPUT_CELLS;
+    let interval = case.output_interval();
+    if !(case.end_time.is_finite() && interval.is_finite() && interval > 0.0) {
+        return;
+    }
+    // Rows: one per output time, plus one at every schedule change; columns: the fixed
+    // curve columns and one per layer.
+    let rows = case.end_time / interval + case.schedule.len() as f64 + 2.0;
+    let curve_cells = rows * (12 + case.layers.len()) as f64;
+    let positions = case.cells_per_layer.saturating_mul(case.layers.len()) as f64 + 2.0;
+    let times = case.profile_times.as_ref().map_or(6, Vec::len) as f64;
+    let profile_cells = positions * times;
+    let limit = MAX_OUTPUT_CELLS as f64;
+    if curve_cells > limit {
+        c.push(
+            Place::Case("output_every_min"),
+            format!(
+                "the curves would hold about {curve_cells:.3e} cells ({rows:.0} rows), more than \
+                 the {MAX_OUTPUT_CELLS} a result may hold; choose a larger output_every_min"
+            ),
+        );
+    }
+    if profile_cells > limit {
+        c.push(
+            Place::Case("profile_hours"),
+            format!(
+                "the profiles would hold about {profile_cells:.3e} cells ({positions:.0} \
+                 positions x {times:.0} times), more than the {MAX_OUTPUT_CELLS} a result may \
+                 hold; list fewer profile_hours or use fewer cells_per_layer"
+            ),
+        );
+    }
+}
+
+/// Plausibility ranges of the isotherm constants, each reported at its own column. Values far
+/// outside them (a GAB C of 1e308, a K of 5e-324, an Oswin b of 1e-300) are typing or unit
+/// mistakes, and they make the inverse isotherm so steep that a run crawls for minutes.
+/// The ranges are wide around published fits for foods, wood, clays and polymers (common
+/// practice: GAB C about 1-500, K 0.5-1; Oswin b 0.1-1.5; modified Henderson b 1-3, c 0-300).
+fn isotherm_ranges(iso: &Isotherm, c: &mut Checker, at: &dyn Fn(&'static str) -> Place) {
+    match *iso {
+        Isotherm::Gab { c: gab_c, k, .. } => {
+            c.within(at("iso_b"), "GAB constant C (iso_b)", gab_c, 0.01, 1e6, "");
+            c.within(at("iso_c"), "GAB constant K (iso_c)", k, 0.01, 1.0, "");
+        }
+        Isotherm::Oswin { a, b } => {
+            c.within(at("iso_a"), "Oswin constant a (iso_a)", a, 1e-4, 5.0, "");
+            c.within(at("iso_b"), "Oswin constant b (iso_b)", b, 0.01, 10.0, "");
+        }
+        Isotherm::Henderson { a, b, c: hc } => {
+            c.within(
+                at("iso_a"),
+                "Henderson constant a (iso_a)",
+                a,
+                1e-12,
+                10.0,
+                "",
+            );
+            c.within(
+                at("iso_b"),
+                "Henderson constant b (iso_b)",
+                b,
+                0.05,
+                20.0,
+                "",
+            );
+            if hc.is_finite() && !(-200.0..=2000.0).contains(&hc) {
+                c.push(
+                    at("iso_c"),
+                    format!(
+                        "Henderson constant c (iso_c) {hc} is outside the plausible range -200 to \
+                         2000 C"
+                    ),
+                );
+            }
+        }
+        Isotherm::None | Isotherm::Wood => {}
     }
 }
 

@@ -113,6 +113,8 @@ pub struct RunControl<'a> {
     pub cancel: Option<&'a AtomicBool>,
     /// Called now and then with the fraction of the end time reached.
     pub progress: Option<&'a dyn Fn(f64)>,
+    /// Stop with [`SolveError::OutOfTime`] once this instant has passed (the budget, s).
+    pub deadline: Option<(Instant, f64)>,
 }
 
 /// Runs a problem from start to end (or target).
@@ -214,6 +216,15 @@ impl<'p> Driver<'p> {
             if control.cancel.is_some_and(|c| c.load(Ordering::Relaxed)) {
                 return Err(SolveError::Cancelled {
                     hours: self.stepper.time() / 3600.0,
+                });
+            }
+            if let Some((deadline, seconds)) = control.deadline
+                && Instant::now() >= deadline
+            {
+                return Err(SolveError::OutOfTime {
+                    hours: self.stepper.time() / 3600.0,
+                    end_hours: end / 3600.0,
+                    seconds,
                 });
             }
             let mut stop = end;

@@ -63,6 +63,20 @@ pub enum SolveError {
         /// Time reached, h.
         hours: f64,
     },
+    /// The run used up its time budget ([`RunControl::deadline`]).
+    #[error(
+        "the run was stopped after {seconds:.0} s of computing at {hours:.4} h of {end_hours:.4} h \
+         (the time budget per case); use fewer cells_per_layer, a larger tolerance or a shorter \
+         end_hours, or allow more time with --case-seconds"
+    )]
+    OutOfTime {
+        /// Time reached, h.
+        hours: f64,
+        /// The end time of the run, h.
+        end_hours: f64,
+        /// The budget that ran out, s.
+        seconds: f64,
+    },
     /// The case did not pass validation.
     #[error("the case is not valid: {0}")]
     Invalid(String),

@@ -11,6 +11,7 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant, SystemTime};
 
 use indicatif::{ProgressBar, ProgressStyle};
 
@@ -18,7 +19,7 @@ use super::daemon::check_dir;
 use super::filter::scan;
 use super::job::{Context, Outcome};
 use super::lock::LockOwner;
-use super::settle::{next_attempt, sleep_unless, wait_settled};
+use super::settle::{Snapshot, next_attempt, sleep_unless, wait_settled};
 use super::{Attempt, BatchOptions, Processor, Report, Status, WatchError, is_stale, worker_count};
 
 /// One input that ran.
@@ -30,7 +31,7 @@ pub struct BatchRow {
     pub status: Status,
     /// The drying time in hours, when the case reached its target.
     pub drying_time_h: Option<f64>,
-    /// Seconds spent in the processor, all tries together.
+    /// Wall-clock seconds from the first try to the answer, waits between tries included.
     pub seconds: f64,
 }
 
@@ -66,9 +67,38 @@ pub struct BatchSummary {
     pub skipped: Vec<Skipped>,
     /// Inputs of this shard that were already up to date (and not forced).
     pub up_to_date: usize,
+    /// The pass was stopped (SIGINT/SIGTERM or the stop flag) before it finished.
+    pub interrupted: bool,
 }
 
 impl BatchSummary {
+    /// Inputs this pass did not run because another runner held their lock.
+    pub fn locked(&self) -> usize {
+        self.skipped
+            .iter()
+            .filter(|s| matches!(s.reason, SkipReason::Locked(_)))
+            .count()
+    }
+
+    /// Inputs the pass did not finish because it was interrupted: those not started and
+    /// those whose run was cancelled.
+    pub fn not_run(&self) -> usize {
+        let skipped = self
+            .skipped
+            .iter()
+            .filter(|s| s.reason == SkipReason::Interrupted)
+            .count();
+        let cancelled = if self.interrupted {
+            self.rows
+                .iter()
+                .filter(|r| r.status == Status::Failed)
+                .count()
+        } else {
+            0
+        };
+        skipped + cancelled
+    }
+
     /// Whether any input had problems or failed (the command then exits with 1).
     pub fn any_problems(&self) -> bool {
         self.rows.iter().any(|r| {
@@ -250,6 +280,7 @@ pub fn batch_until(
             Err(skipped) => summary.skipped.push(skipped),
         }
     }
+    summary.interrupted = stop.load(Ordering::SeqCst);
     summary.rows.sort_by(|a, b| a.file.cmp(&b.file));
     summary.skipped.sort_by(|a, b| a.file.cmp(&b.file));
     Ok(summary)
@@ -292,17 +323,23 @@ fn run_input(
         return Err(skip(interrupted_or_gone()));
     }
     let mut attempt = Attempt::First;
-    let mut total_seconds = 0.0;
+    // The time reported is the wall time from the first try to the answer, back-off included.
+    let started = Instant::now();
+    let mut unchanged = Unchanged::new(path);
     loop {
         match ctx.run(path, attempt, opts.force, stop) {
-            Outcome::Ran {
-                report, seconds, ..
-            } => {
-                total_seconds += seconds;
+            Outcome::Ran { report, .. } => {
+                let total_seconds = started.elapsed().as_secs_f64();
                 if report.status == Status::NotReady
                     && !stop.load(Ordering::SeqCst)
                     && let Some((next, delay)) = next_attempt(attempt, opts.settle)
                 {
+                    // A file that cannot be read and is no longer changing is not a copy in
+                    // progress: after a few quiet seconds it gets its final try at once.
+                    if unchanged.quiet_for(path) >= opts.settle.max(UNREADABLE_STABLE) {
+                        attempt = Attempt::Final;
+                        continue;
+                    }
                     if !sleep_unless(delay, stop) {
                         return Err(skip(SkipReason::Interrupted));
                     }
@@ -317,6 +354,44 @@ fn run_input(
             Outcome::Vanished => return Err(skip(interrupted_or_gone())),
             Outcome::NotStarted => return Err(skip(SkipReason::Interrupted)),
         }
+    }
+}
+
+/// How long an input that cannot be read may stay unchanged before its final try.
+const UNREADABLE_STABLE: Duration =
+    Duration::from_millis((crate::limits::UNREADABLE_STABLE_SECS * 1000.0) as u64);
+
+/// Tracks since when a file's size and modification time have not changed, counting the
+/// time since its last modification (by this machine's clock) when it is older than the
+/// first look.
+struct Unchanged {
+    last: Option<Snapshot>,
+    since: Instant,
+}
+
+impl Unchanged {
+    fn new(path: &Path) -> Unchanged {
+        let last = Snapshot::of(path);
+        let now = Instant::now();
+        let age = std::fs::metadata(path)
+            .and_then(|m| m.modified())
+            .ok()
+            .and_then(|m| SystemTime::now().duration_since(m).ok())
+            .unwrap_or_default();
+        Unchanged {
+            last,
+            since: now.checked_sub(age).unwrap_or(now),
+        }
+    }
+
+    /// How long the file has been unchanged, looking at it now.
+    fn quiet_for(&mut self, path: &Path) -> Duration {
+        let current = Snapshot::of(path);
+        if current != self.last {
+            self.last = current;
+            self.since = Instant::now();
+        }
+        self.since.elapsed()
     }
 }
 

@@ -23,7 +23,7 @@ use super::events::{self, SourceConfig, WatchEvent};
 use super::filter::{dir_in_scope, in_scope, scan};
 use super::job::{Context, Done, Outcome};
 use super::lock::{LockOwner, release_for};
-use super::settle::{self, Ready, Settler, next_attempt};
+use super::settle::{self, Ready, Settler, Snapshot, next_attempt};
 use super::{Attempt, Processor, Status, WatchError, WatchOptions, is_stale, worker_count};
 
 /// How long cancelled processors get to return before their runs are abandoned.
@@ -108,6 +108,7 @@ fn run(
         settler: Settler::new(opts.settle),
         queue: VecDeque::new(),
         running: HashMap::new(),
+        failed: HashMap::new(),
         pool,
         shutdowns: 0,
     };
@@ -198,6 +199,14 @@ struct Running {
     dirty: bool,
 }
 
+/// An input whose run failed: the version that failed and when to try it again.
+#[derive(Debug)]
+struct Failure {
+    seen: Option<Snapshot>,
+    not_before: Instant,
+    wait: Duration,
+}
+
 struct Coordinator<'a> {
     opts: &'a WatchOptions,
     ctx: &'a Context,
@@ -205,6 +214,8 @@ struct Coordinator<'a> {
     settler: Settler,
     queue: VecDeque<Ready>,
     running: HashMap<PathBuf, Running>,
+    /// Inputs whose last run failed, remembered until they change or their wait is over.
+    failed: HashMap<PathBuf, Failure>,
     pool: Pool,
     /// Shutdown events seen; the second cuts the grace period short.
     shutdowns: usize,
@@ -227,9 +238,43 @@ impl Coordinator<'_> {
             }
             return;
         }
+        if let Some(failure) = self.failed.get(&path) {
+            let unchanged = Snapshot::of(&path) == failure.seen;
+            if unchanged && now < failure.not_before {
+                // Reading a failed input raises events of its own; without this it would be
+                // run again every second or two for ever.
+                return;
+            }
+        }
         if force || self.settler.contains(&path) || is_stale(&path) {
             self.settler.add(path, force, now);
         }
+    }
+
+    /// Remembers a failed run of `path` (or forgets an earlier failure after a success).
+    fn remember(&mut self, path: &Path, status: Status, seen: Option<Snapshot>, now: Instant) {
+        if status != Status::Failed || self.shutdowns > 0 {
+            self.failed.remove(path);
+            return;
+        }
+        let max = Duration::from_secs_f64(crate::limits::FAILURE_BACKOFF_MAX_SECS);
+        let wait = match self.failed.get(path) {
+            Some(f) if f.seen == seen => (f.wait * 2).min(max),
+            _ => self.opts.failure_backoff.min(max),
+        };
+        tracing::warn!(
+            file = %self.ctx.display_name(path).display(),
+            retry_in_s = wait.as_secs(),
+            "the run failed; the input is tried again when it changes or after the wait"
+        );
+        self.failed.insert(
+            path.to_path_buf(),
+            Failure {
+                seen,
+                not_before: now + wait,
+                wait,
+            },
+        );
     }
 
     fn rescan(&mut self, folder: &Path) {
@@ -250,7 +295,10 @@ impl Coordinator<'_> {
         for path in paths {
             if in_scope(self.root, &path, self.opts.recursive) {
                 self.consider(path, false, true, now);
-            } else if self.opts.recursive && path.is_dir() && dir_in_scope(self.root, &path) {
+            } else if self.opts.recursive
+                && std::fs::symlink_metadata(&path).is_ok_and(|m| m.is_dir())
+                && dir_in_scope(self.root, &path)
+            {
                 // A folder moved in brings files that raised no events of their own.
                 self.rescan(&path);
             }
@@ -282,6 +330,12 @@ impl Coordinator<'_> {
                 changed,
             } => {
                 self.ctx.log(&done.path, &report, seconds);
+                if changed {
+                    self.failed.remove(&done.path);
+                } else {
+                    let seen = Snapshot::of(&done.path);
+                    self.remember(&done.path, report.status, seen, now);
+                }
                 if changed {
                     // The output may describe the older version although it is newer.
                     self.consider(done.path, true, true, now);

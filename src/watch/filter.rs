@@ -89,6 +89,12 @@ pub(crate) fn in_scope(root: &Path, path: &Path, recursive: bool) -> bool {
     dirs_ok && is_input(path)
 }
 
+/// Whether `path`, with every symbolic link in it resolved, lies inside `root` (itself
+/// resolved): a link out of the watched folder is neither read nor answered beside.
+pub(crate) fn stays_inside(root: &Path, path: &Path) -> bool {
+    path.canonicalize().is_ok_and(|p| p.starts_with(root))
+}
+
 /// Whether `dir` (a sub-folder under `root`) is one the recursive watcher serves.
 pub(crate) fn dir_in_scope(root: &Path, dir: &Path) -> bool {
     dir.strip_prefix(root).is_ok_and(|rel| {
@@ -101,10 +107,12 @@ pub(crate) fn dir_in_scope(root: &Path, dir: &Path) -> bool {
 
 /// All inputs in `dir` (and its non-hidden sub-folders with `recursive`), sorted by path.
 ///
-/// Symbolic links to folders are not followed (no loops); links to files are inputs like any
-/// other file. A sub-folder that cannot be listed is logged and skipped; only an unreadable
-/// `dir` itself is an error.
+/// Symbolic links to folders are not followed (no loops, and no results written outside the
+/// folder); a link to a file is an input only when the file it points to lies inside `dir`.
+/// Only ordinary files are inputs (no pipes or devices). A sub-folder that cannot be listed is
+/// logged and skipped; only an unreadable `dir` itself is an error.
 pub(crate) fn scan(dir: &Path, recursive: bool) -> io::Result<Vec<PathBuf>> {
+    let inside = dir.canonicalize()?;
     let mut found = Vec::new();
     let mut folders = vec![dir.to_path_buf()];
     let mut first = true;
@@ -127,7 +135,10 @@ pub(crate) fn scan(dir: &Path, recursive: bool) -> io::Result<Vec<PathBuf>> {
                 if recursive && !is_hidden_dir(&entry.file_name().to_string_lossy()) {
                     folders.push(path);
                 }
-            } else if is_input(&path) && std::fs::metadata(&path).is_ok_and(|m| m.is_file()) {
+            } else if is_input(&path)
+                && std::fs::metadata(&path).is_ok_and(|m| m.is_file())
+                && (!kind.is_symlink() || stays_inside(&inside, &path))
+            {
                 found.push(path);
             }
         }

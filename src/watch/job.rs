@@ -7,6 +7,7 @@ use std::sync::Arc;
 use std::sync::atomic::AtomicBool;
 use std::time::{Duration, Instant};
 
+use super::filter::stays_inside;
 use super::lock::{Acquire, LockOwner, try_lock};
 use super::settle::Snapshot;
 use super::{Attempt, Processor, Report, Status, is_stale};
@@ -64,6 +65,13 @@ impl Context {
         let Some(before) = Snapshot::of(path) else {
             return Outcome::Vanished;
         };
+        if !stays_inside(&self.root, path) {
+            tracing::warn!(
+                file = %path.display(),
+                "leads out of the served folder through a symbolic link; not read"
+            );
+            return Outcome::Vanished;
+        }
         let _guard = match try_lock(path, &self.owner, self.stale_lock) {
             Ok(Acquire::Taken(guard)) => guard,
             Ok(Acquire::Busy(who)) => return Outcome::Busy(who),

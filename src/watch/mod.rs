@@ -133,11 +133,16 @@ pub struct WatchOptions {
     pub stale_lock: Duration,
     /// How long running cases may finish after SIGINT/SIGTERM before they are cancelled.
     pub grace: Duration,
+    /// After a run failed (or its answer could not be written), the wait before the same
+    /// unchanged input is tried again; it doubles after each further failure, up to an hour.
+    /// A change to the input ends the wait.
+    pub failure_backoff: Duration,
 }
 
 impl WatchOptions {
     /// Options for `dir` with the documented defaults: one job per CPU, settle 1 s, native
-    /// events, not recursive, rescan every 30 s, stale locks after 10 min, grace 30 s.
+    /// events, not recursive, rescan every 30 s, stale locks after 10 min, grace 30 s, a failed
+    /// input tried again after 1 min, 2 min, 4 min ... up to 1 h unless it changes.
     pub fn new(dir: impl Into<PathBuf>) -> Self {
         WatchOptions {
             dir: dir.into(),
@@ -148,6 +153,7 @@ impl WatchOptions {
             rescan: Duration::from_secs(30),
             stale_lock: DEFAULT_STALE_LOCK,
             grace: Duration::from_secs(30),
+            failure_backoff: Duration::from_secs_f64(crate::limits::FAILURE_BACKOFF_SECS),
         }
     }
 }

@@ -8,6 +8,10 @@
 //! [`RawValue::Error`] that the parser reports at its cell.
 
 mod csv;
+mod isolate;
+mod zip_check;
+
+pub use isolate::{Isolation, child_main};
 
 use std::fs::File;
 use std::io::{Cursor, Read};
@@ -18,12 +22,12 @@ use calamine::{Data, DataRef, Reader, SheetType, Sheets, Xlsx, XlsxError};
 
 use super::raw::{RawBook, RawSheet, RawValue};
 
-/// Largest input file read, in bytes. Case workbooks are kilobytes; a file this large is not a
-/// case and reading it whole would only cost memory.
-pub const MAX_FILE_BYTES: u64 = 64 * 1024 * 1024;
+/// Largest input file read, in bytes (see [`crate::limits`]).
+pub const MAX_FILE_BYTES: u64 = crate::limits::MAX_FILE_BYTES;
 
-/// Largest number of non-empty cells read from one workbook, all sheets together.
-pub const MAX_CELLS: usize = 2_000_000;
+/// Largest number of non-empty cells read from one workbook, all sheets together (see
+/// [`crate::limits`]).
+pub const MAX_CELLS: usize = crate::limits::MAX_CELLS;
 
 /// Text of the [`RawValue::Error`] for a formula cell the file stored no result for.
 pub const NO_CACHED_VALUE: &str = "a formula with no cached value";
@@ -66,6 +70,12 @@ pub enum ReadError {
         /// Which limit was passed.
         detail: String,
     },
+    /// The path names a pipe, device or folder, not an ordinary file.
+    #[error("{path} is not an ordinary file (a pipe, device or folder); only files are read")]
+    NotAFile {
+        /// The path.
+        path: PathBuf,
+    },
 }
 
 /// Reads a workbook file: the bytes are read once, then parsed from memory.
@@ -73,11 +83,43 @@ pub enum ReadError {
 /// Returns the raw cells and the exact bytes they came from (for hashing the input). The file
 /// is only read, never written.
 pub fn read_file(path: &Path) -> Result<(RawBook, Vec<u8>), ReadError> {
+    read_file_with(path, &Isolation::InProcess)
+}
+
+/// Reads a workbook file as [`read_file`] does, with the spreadsheet formats read as
+/// `isolation` says (in this process, or in a child process with memory and time limits).
+pub fn read_file_with(path: &Path, isolation: &Isolation) -> Result<(RawBook, Vec<u8>), ReadError> {
+    let bytes = read_input_bytes(path)?;
+    let extension = path
+        .extension()
+        .map(|e| e.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let book = isolation.read_bytes(&bytes, &extension)?;
+    Ok((book, bytes))
+}
+
+/// Opens without blocking (a FIFO would otherwise wait for a writer for ever) and reads
+/// only an ordinary file, at most [`MAX_FILE_BYTES`] of it.
+fn read_input_bytes(path: &Path) -> Result<Vec<u8>, ReadError> {
     let io = |source| ReadError::Io {
         path: path.to_path_buf(),
         source,
     };
-    let file = File::open(path).map_err(io)?;
+    let mut options = std::fs::OpenOptions::new();
+    options.read(true);
+    #[cfg(target_os = "linux")]
+    {
+        use std::os::unix::fs::OpenOptionsExt;
+        /// `O_NONBLOCK` on Linux (asm-generic/fcntl.h); no effect on an ordinary file.
+        const O_NONBLOCK: i32 = 0o4000;
+        options.custom_flags(O_NONBLOCK);
+    }
+    let file: File = options.open(path).map_err(io)?;
+    if !file.metadata().map_err(io)?.is_file() {
+        return Err(ReadError::NotAFile {
+            path: path.to_path_buf(),
+        });
+    }
     let mut bytes = Vec::new();
     // Read at most one byte past the limit, so a huge file is refused without reading it all.
     file.take(MAX_FILE_BYTES + 1)
@@ -88,12 +130,7 @@ pub fn read_file(path: &Path) -> Result<(RawBook, Vec<u8>), ReadError> {
             detail: format!("it is larger than {} MiB", MAX_FILE_BYTES / (1024 * 1024)),
         });
     }
-    let extension = path
-        .extension()
-        .map(|e| e.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    let book = read_bytes(&bytes, &extension)?;
-    Ok((book, bytes))
+    Ok(bytes)
 }
 
 /// Reads a workbook held in memory; `extension` (`xlsx`, `xlsm`, `xls`, `ods` or `csv`,
@@ -120,6 +157,8 @@ fn read_spreadsheet(bytes: &[u8]) -> Result<RawBook, ReadError> {
     if bytes.is_empty() {
         return Err(not_a_workbook("the file is empty (0 bytes)"));
     }
+    // A zip container says how large its members are before anything is inflated.
+    zip_check::check(bytes)?;
     // calamine is third-party code fed with untrusted bytes: a panic inside it must become a
     // clean error for this one input, not end the program.
     match catch_unwind(AssertUnwindSafe(|| read_spreadsheet_inner(bytes))) {
@@ -313,6 +352,20 @@ fn number(x: f64) -> RawValue {
 fn text(s: &str) -> RawValue {
     if s.is_empty() {
         RawValue::Empty
+    } else {
+        checked_text(s)
+    }
+}
+
+/// Text as a cell value, or an error value for text longer than a cell can hold (it could not
+/// be written back into a result or errors workbook).
+pub(crate) fn checked_text(s: &str) -> RawValue {
+    let limit = crate::limits::MAX_TEXT_CHARS;
+    if s.len() > limit && s.chars().count() > limit {
+        RawValue::Error(format!(
+            "a text of {} characters, longer than the {limit} a spreadsheet cell can hold",
+            s.chars().count()
+        ))
     } else {
         RawValue::Text(s.to_string())
     }

@@ -332,7 +332,7 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
     }
     chart
         .title()
-        .set_name(&format!("Drying curve: {}", case.title));
+        .set_name(&chart_text(&format!("Drying curve: {}", case.title)));
     chart.x_axis().set_name("time, h");
     chart
         .y_axis()
@@ -342,6 +342,15 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
     let chart_col = (headers.len() + 4) as u16;
     ws.insert_chart(1, chart_col, &chart)?;
     Ok(())
+}
+
+/// Text for a chart title that the writer cannot mistake for a cell range: a title ending in
+/// something like `X!A1` gets a trailing space.
+fn chart_text(text: &str) -> String {
+    match text.rsplit_once('!') {
+        Some((_, end)) if end.ends_with(|c: char| c.is_ascii_digit()) => format!("{text} "),
+        _ => text.to_string(),
+    }
 }
 
 /// Profile column headers for the given times (s).
@@ -389,7 +398,10 @@ fn profiles_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result
         .set_name(&format!("moisture, {}", basis_unit(case)));
     chart.legend().set_position(ChartLegendPosition::Bottom);
     chart.set_width(720).set_height(420);
-    ws.insert_chart(1, headers.len() as u16 + 1, &chart)?;
+    // Every profile time after the run's end: no series, so no chart (the run warns).
+    if run.profiles.iter().any(|p| p.moisture.is_some()) {
+        ws.insert_chart(1, headers.len() as u16 + 1, &chart)?;
+    }
     Ok(())
 }
 
@@ -591,6 +603,15 @@ pub fn errors_workbook(problems: &[InputProblem]) -> Result<Vec<u8>, XlsxError> 
 }
 
 fn csv_field(s: &str) -> String {
+    // Text starting with = + - @ (or a tab or CR) would run as a formula where a spreadsheet
+    // program opens the CSV: a leading apostrophe keeps it text (common practice).
+    let guarded;
+    let s = if s.starts_with(['=', '+', '-', '@', '\t', '\r']) {
+        guarded = format!("'{s}");
+        guarded.as_str()
+    } else {
+        s
+    };
     if s.contains([',', '"', '\n', '\r']) {
         format!("\"{}\"", s.replace('"', "\"\""))
     } else {
@@ -648,10 +669,13 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
         Some(d) if !d.as_os_str().is_empty() => d,
         _ => Path::new("."),
     };
-    let mut tmp = tempfile::Builder::new()
-        .prefix(".dampfront-")
-        .suffix(".tmp")
-        .tempfile_in(dir)?;
+    let mut builder = tempfile::Builder::new();
+    builder.prefix(".dampfront-").suffix(".tmp");
+    // Created rw for everyone less the umask, as any file a user saves (tempfile's default is
+    // owner-only, which locks colleagues on a shared folder out of the results).
+    #[cfg(unix)]
+    builder.permissions(std::os::unix::fs::PermissionsExt::from_mode(0o666));
+    let mut tmp = builder.tempfile_in(dir)?;
     tmp.write_all(bytes)?;
     tmp.as_file().sync_all()?;
     tmp.persist(path).map_err(|e| e.error)?;

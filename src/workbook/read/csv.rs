@@ -11,6 +11,7 @@
 //! opens the CSV shows it, and, without quoted line breaks, line 17 in a text editor.
 
 use super::ReadError;
+use crate::limits::{MAX_CELLS, MAX_CSV_ROWS};
 use crate::workbook::raw::{RawBook, RawSheet, RawValue};
 
 /// One record: its 1-based starting line and its fields.
@@ -18,6 +19,8 @@ use crate::workbook::raw::{RawBook, RawSheet, RawValue};
 type Section = (String, Vec<(u32, u32, RawValue)>);
 
 struct Record {
+    /// 0-based index of the record in the file (blank records are not kept but counted).
+    index: usize,
     line: usize,
     fields: Vec<String>,
 }
@@ -40,8 +43,8 @@ pub(super) fn read_csv(bytes: &[u8]) -> Result<RawBook, ReadError> {
     let records = records(text)?;
     let mut book = RawBook::default();
     let mut current: Option<Section> = None;
-    for (index, record) in records.iter().enumerate() {
-        let row = u32::try_from(index).map_err(|_| ReadError::Csv {
+    for record in &records {
+        let row = u32::try_from(record.index).map_err(|_| ReadError::Csv {
             line: record.line,
             detail: String::from("the file has too many rows"),
         })?;
@@ -63,7 +66,7 @@ pub(super) fn read_csv(bytes: &[u8]) -> Result<RawBook, ReadError> {
                         line: record.line,
                         detail: String::from("the row has too many fields"),
                     })?;
-                    cells.push((row, col, RawValue::Text(field.clone())));
+                    cells.push((row, col, super::checked_text(field)));
                 }
             }
             None if blank => {}
@@ -104,9 +107,35 @@ fn section_name(field: &str) -> Option<&str> {
     (!inner.is_empty()).then_some(inner)
 }
 
-/// Splits the text into records per RFC 4180.
+fn too_large(detail: String) -> ReadError {
+    ReadError::TooLarge { detail }
+}
+
+/// Splits the text into records per RFC 4180. Records whose fields are all empty are counted
+/// but not kept; more than [`MAX_CSV_ROWS`] records or [`MAX_CELLS`] non-empty fields are
+/// refused before they cost memory.
 fn records(text: &str) -> Result<Vec<Record>, ReadError> {
-    let mut out = Vec::new();
+    let mut out: Vec<Record> = Vec::new();
+    let mut index = 0usize;
+    let mut non_empty = 0usize;
+    let mut keep = |out: &mut Vec<Record>, mut record: Record| -> Result<(), ReadError> {
+        record.index = index;
+        index += 1;
+        if index > MAX_CSV_ROWS {
+            return Err(too_large(format!("it has more than {MAX_CSV_ROWS} lines")));
+        }
+        let filled = record.fields.iter().filter(|f| !f.is_empty()).count();
+        if filled > 0 {
+            non_empty += filled;
+            if non_empty > MAX_CELLS {
+                return Err(too_large(format!(
+                    "it holds more than {MAX_CELLS} non-empty fields"
+                )));
+            }
+            out.push(record);
+        }
+        Ok(())
+    };
     let mut fields = Vec::new();
     let mut field = String::new();
     let mut line = 1usize;
@@ -148,10 +177,12 @@ fn records(text: &str) -> Result<Vec<Record>, ReadError> {
                     chars.next();
                 }
                 fields.push(std::mem::take(&mut field));
-                out.push(Record {
+                let record = Record {
+                    index: 0,
                     line: record_line,
                     fields: std::mem::take(&mut fields),
-                });
+                };
+                keep(&mut out, record)?;
                 quoted = false;
                 after_quote = false;
                 any = false;
@@ -184,10 +215,12 @@ fn records(text: &str) -> Result<Vec<Record>, ReadError> {
     }
     if any {
         fields.push(field);
-        out.push(Record {
+        let record = Record {
+            index: 0,
             line: record_line,
             fields,
-        });
+        };
+        keep(&mut out, record)?;
     }
     Ok(out)
 }
@@ -220,14 +253,44 @@ mod tests {
 
     #[test]
     fn last_record_without_line_break_and_empty_fields() {
+        // A record of empty fields only is counted (rows keep their numbers) but not kept.
+        let got: Vec<(usize, Vec<String>)> = records("a,,b\n,\nc")
+            .unwrap()
+            .into_iter()
+            .map(|r| (r.index, r.fields))
+            .collect();
         assert_eq!(
-            fields("a,,b\n,\nc"),
+            got,
             vec![
-                vec!["a".to_string(), String::new(), "b".into()],
-                vec![String::new(), String::new()],
-                vec!["c".to_string()],
+                (0, vec!["a".to_string(), String::new(), "b".into()]),
+                (2, vec!["c".to_string()]),
             ]
         );
+    }
+
+    #[test]
+    fn many_lines_and_many_fields_are_refused_before_they_cost_memory() {
+        // One more line than the limit, every one empty: refused although nothing is kept.
+        let text = "\n".repeat(MAX_CSV_ROWS + 1);
+        let e = read_csv(text.as_bytes()).unwrap_err();
+        assert!(matches!(e, ReadError::TooLarge { .. }), "{e}");
+        assert!(e.to_string().contains("lines"), "{e}");
+        let mut text = String::from("[case]\n");
+        text.push_str(&"x,".repeat(MAX_CELLS + 1));
+        let e = read_csv(text.as_bytes()).unwrap_err();
+        assert!(e.to_string().contains("non-empty fields"), "{e}");
+    }
+
+    #[test]
+    fn text_longer_than_a_cell_holds_becomes_an_error_value() {
+        let long = "y".repeat(crate::limits::MAX_TEXT_CHARS + 1);
+        let book = read_csv(format!("[case]\ntitle,{long}\n").as_bytes()).unwrap();
+        let (v, at) = book.sheets[0].get(1, 1);
+        assert!(
+            matches!(v, RawValue::Error(e) if e.contains("32767")),
+            "{v:?}"
+        );
+        assert_eq!(at.to_string(), "case!B2");
     }
 
     #[test]

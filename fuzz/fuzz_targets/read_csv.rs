@@ -1,0 +1,12 @@
+//! Any bytes as a sectioned CSV case down to the validated case: reading and parsing must
+//! answer with cells or with problems, never panic.
+#![no_main]
+
+use dampfront::workbook::{parse, read};
+use libfuzzer_sys::fuzz_target;
+
+fuzz_target!(|data: &[u8]| {
+    if let Ok(book) = read::read_bytes(data, "csv") {
+        let _ = parse::parse(&book, "fuzz");
+    }
+});
