@@ -48,8 +48,8 @@ pub enum Command {
     Watch {
         /// The folder.
         dir: PathBuf,
-        /// Cases run at once (default: available cores).
-        #[arg(long)]
+        /// Cases run at once, at least 1 (default: available cores).
+        #[arg(long, value_parser = jobs_parser())]
         jobs: Option<usize>,
         /// Wait until a file's size and time have been still this long, ms.
         #[arg(long, default_value_t = 1000)]
@@ -74,8 +74,8 @@ pub enum Command {
     Batch {
         /// The folder.
         dir: PathBuf,
-        /// Cases run at once (default: available cores).
-        #[arg(long)]
+        /// Cases run at once, at least 1 (default: available cores).
+        #[arg(long, value_parser = jobs_parser())]
         jobs: Option<usize>,
         /// Run every input, even those with an up-to-date result.
         #[arg(long)]
@@ -116,6 +116,11 @@ pub enum Outcome {
 fn secs(v: f64, what: &str) -> anyhow::Result<Duration> {
     Duration::try_from_secs_f64(v)
         .with_context(|| format!("{what} must be a number of seconds >= 0"))
+}
+
+/// `--jobs` takes a whole number of at least 1 (0 would run nothing).
+fn jobs_parser() -> clap::builder::RangedU64ValueParser<usize> {
+    clap::builder::RangedU64ValueParser::<usize>::new().range(1..)
 }
 
 fn jobs(j: Option<usize>) -> usize {
@@ -246,10 +251,19 @@ fn new(kind: &str, file: &Path) -> anyhow::Result<Outcome> {
             file.display()
         );
     }
-    let sheets = template::sheets(kind);
-    let is_csv = file
+    let extension = file
         .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
+        .map(|e| e.to_string_lossy().to_ascii_lowercase());
+    let is_csv = match extension.as_deref() {
+        Some("csv") => true,
+        Some("xlsx") => false,
+        _ => bail!(
+            "{}: examples are written as .xlsx or as sectioned .csv; choose a name ending in \
+             .xlsx or .csv (nothing was written)",
+            file.display()
+        ),
+    };
+    let sheets = template::sheets(kind);
     let bytes = if is_csv {
         template::to_csv(&sheets).into_bytes()
     } else {
@@ -295,13 +309,21 @@ fn verify() -> anyhow::Result<Outcome> {
     })
 }
 
+/// Whether log lines carry colour: only on a terminal, and never when `NO_COLOR` is set to
+/// anything but an empty value (the convention of no-color.org).
+pub fn use_colour(is_terminal: bool, no_color: Option<&std::ffi::OsStr>) -> bool {
+    is_terminal && no_color.is_none_or(|v| v.is_empty())
+}
+
 /// Sets up logging to standard error.
 pub fn init_logging(json: bool) {
     let filter = tracing_subscriber::EnvFilter::try_from_default_env()
         .unwrap_or_else(|_| tracing_subscriber::EnvFilter::new("info"));
+    let no_color = std::env::var_os("NO_COLOR");
     let builder = tracing_subscriber::fmt()
         .with_env_filter(filter)
         .with_writer(io::stderr)
+        .with_ansi(use_colour(io::stderr().is_terminal(), no_color.as_deref()))
         .with_target(false);
     if json {
         builder.json().init();
