@@ -14,7 +14,7 @@ mod stepper;
 pub mod tridiag;
 mod workspace;
 
-pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
+pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, StepEnd, StepRecord, run};
 pub use problem::Problem;
 pub use stepper::{Controller, Stats, Stepper, StopReason};
 pub use workspace::Workspace;
