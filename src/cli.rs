@@ -42,6 +42,10 @@ pub enum Command {
         /// Also write <stem>.curves.csv and <stem>.profiles.csv.
         #[arg(long)]
         csv: bool,
+        /// Print one JSON object per input (summary keys and values, warnings, problems,
+        /// output paths) instead of the plain lines.
+        #[arg(long)]
+        json: bool,
     },
     /// Watch a folder and answer every new or changed workbook with its result; runs until
     /// SIGINT or SIGTERM.
@@ -86,6 +90,10 @@ pub enum Command {
         /// Also run sub-folders.
         #[arg(long)]
         recursive: bool,
+        /// Print one JSON object per input that ran on standard output (the closing table
+        /// goes to standard error).
+        #[arg(long)]
+        json: bool,
         /// Wait until a file's size and time have been still this long, ms.
         #[arg(long, default_value_t = 1000, hide = true)]
         settle_ms: u64,
@@ -139,7 +147,12 @@ fn print(text: &str) -> anyhow::Result<()> {
 /// Runs a parsed command line.
 pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     match cli.command {
-        Command::Solve { files, out, csv } => solve(&files, out, csv),
+        Command::Solve {
+            files,
+            out,
+            csv,
+            json,
+        } => solve(&files, out, csv, json),
         Command::Watch {
             dir,
             jobs: j,
@@ -167,6 +180,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             force,
             shard,
             recursive,
+            json,
             settle_ms,
             stale_lock_secs,
         } => {
@@ -178,8 +192,27 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.settle = Duration::from_millis(settle_ms);
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.progress = io::stderr().is_terminal();
-            let summary = watch::batch(&opts, Arc::new(Pipeline::default()))?;
-            print(&summary.to_string())?;
+            let pipeline = Pipeline {
+                json_lines: json,
+                ..Pipeline::default()
+            };
+            let summary = watch::batch(&opts, Arc::new(pipeline))?;
+            if json {
+                // Inputs that needed a run but were not run get an object of their own.
+                for s in &summary.skipped {
+                    crate::pipeline::print_line(
+                        &serde_json::json!({
+                            "file": opts.dir.join(&s.file).display().to_string(),
+                            "status": "skipped",
+                            "detail": s.reason.to_string(),
+                        })
+                        .to_string(),
+                    );
+                }
+                eprint!("{summary}");
+            } else {
+                print(&summary.to_string())?;
+            }
             let interrupted = summary
                 .skipped
                 .iter()
@@ -199,7 +232,12 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     }
 }
 
-fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<Outcome> {
+fn solve(
+    files: &[PathBuf],
+    out: Option<PathBuf>,
+    csv: bool,
+    json: bool,
+) -> anyhow::Result<Outcome> {
     if let Some(dir) = &out {
         std::fs::create_dir_all(dir)
             .with_context(|| format!("could not create the output folder {}", dir.display()))?;
@@ -208,6 +246,7 @@ fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<O
         out_dir: out,
         csv,
         progress: io::stderr().is_terminal(),
+        json_lines: false,
     };
     let cancel = AtomicBool::new(false);
     let mut outcome = Outcome::Ok;
@@ -215,9 +254,18 @@ fn solve(files: &[PathBuf], out: Option<PathBuf>, csv: bool) -> anyhow::Result<O
     for file in files {
         let result = pipeline.run_file(file, Attempt::Final, &cancel);
         let mut lines = String::new();
-        for p in &result.problems {
-            lines.push_str(&problem_line(file, p));
+        if json {
+            lines.push_str(&result.json_line(file));
             lines.push('\n');
+        } else {
+            for p in &result.problems {
+                lines.push_str(&problem_line(file, p));
+                lines.push('\n');
+            }
+            if let Some(line) = result.plain_line(file) {
+                lines.push_str(&line);
+                lines.push('\n');
+            }
         }
         print(&lines)?;
         tracing::info!(
