@@ -8,6 +8,7 @@ use std::time::Instant;
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use sha2::{Digest, Sha256};
 
+use crate::case::Case;
 use crate::check;
 use crate::solver::{self, Problem, RunControl, RunStatus, SolveError};
 use crate::watch::{self, Attempt, Report, Status};
@@ -292,6 +293,7 @@ impl Pipeline {
         };
         let case = &parsed.case;
         let problem_data = Problem::new(case);
+        let target_warning = target_warning(case, &problem_data);
         let bar = ProgressBar::hidden();
         bar.set_length(1000);
         bar.set_style(
@@ -333,6 +335,7 @@ impl Pipeline {
             }
         };
         let mut warnings = parsed.warnings.clone();
+        warnings.extend(target_warning);
         warnings.extend(run.warnings.iter().cloned());
         let check = check::series_check(case, &run);
         let bytes = write::result_workbook(&write::ResultInput {
@@ -412,6 +415,44 @@ impl Pipeline {
             Vec::new(),
         )
     }
+}
+
+/// A warning when the target lies beyond every equilibrium the schedule's air can bring the
+/// body to (below the lowest for a drying run, above the highest for a wetting one): the mean
+/// only approaches that equilibrium, so the run would end with `target_not_reached`.
+pub fn target_warning(case: &Case, p: &Problem) -> Option<String> {
+    let target = p.target?;
+    let initial = p.mean(&p.initial);
+    let equilibria: Vec<(f64, &str)> = p
+        .steps
+        .iter()
+        .filter_map(|s| {
+            p.equilibrium_mean(s, s.to)
+                .filter(|x| x.is_finite())
+                .map(|x| (x, s.label.as_str()))
+        })
+        .collect();
+    let pct = |x: f64| case.basis.from_dry_fraction(x);
+    let margin = 1e-9 * target.abs().max(1e-6);
+    let (beyond, which) = if target < initial {
+        let lowest = equilibria.iter().min_by(|a, b| a.0.total_cmp(&b.0))?;
+        (target < lowest.0 - margin, ("lowest", lowest))
+    } else if target > initial {
+        let highest = equilibria.iter().max_by(|a, b| a.0.total_cmp(&b.0))?;
+        (target > highest.0 + margin, ("highest", highest))
+    } else {
+        return None;
+    };
+    let (word, (eq, label)) = which;
+    beyond.then(|| {
+        format!(
+            "target_moisture_pct {:.2} % lies beyond the {word} equilibrium the schedule's air can \
+             bring the body to, {:.2} % (step {label}): the mean only approaches it, so the \
+             target cannot be reached",
+            pct(target),
+            pct(*eq)
+        )
+    })
 }
 
 /// What a run wrote, for the command line's answer.

@@ -23,9 +23,34 @@ fn committed_templates_equal_a_fresh_new_and_each_one_solves() {
         );
         let out = run_in(dir.path(), &["solve", &file]);
         assert_eq!(out.status.code(), Some(0), "{kind}: {}", output_text(&out));
-        assert!(dir.path().join(format!("{kind}.result.xlsx")).exists());
+        let result = dir.path().join(format!("{kind}.result.xlsx"));
+        assert!(result.exists());
+        demo_result_is_clean(kind, &result);
     }
     keep_outputs(dir.path(), "templates");
+}
+
+/// A demo shows no warning it did not mean to show, and no empty profile column.
+fn demo_result_is_clean(kind: &str, result: &std::path::Path) {
+    use calamine::{Data, Reader, open_workbook_auto};
+    let mut wb = open_workbook_auto(result).expect("opens");
+    let summary = wb.worksheet_range("summary").expect("summary");
+    let warnings: Vec<String> = summary
+        .rows()
+        .filter(|r| r[0] == Data::String("warning".into()))
+        .map(|r| r[1].to_string())
+        .collect();
+    assert!(warnings.is_empty(), "{kind}: {warnings:?}");
+    let profiles = wb.worksheet_range("profiles").expect("profiles");
+    let rows: Vec<&[Data]> = profiles.rows().collect();
+    let width = rows[0].iter().filter(|d| **d != Data::Empty).count();
+    for c in 1..width {
+        assert!(
+            rows[1..].iter().all(|r| matches!(r[c], Data::Float(_))),
+            "{kind}: profile column {} has empty cells",
+            rows[0][c]
+        );
+    }
 }
 
 #[test]
