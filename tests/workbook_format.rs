@@ -378,3 +378,106 @@ fn a_conditioning_step_that_wets_towards_its_trigger_is_not_skipped() {
         "{warnings:?}"
     );
 }
+
+/// The parts of an xlsx (a zip of XML files) by name.
+fn xml_parts(path: &Path) -> std::collections::BTreeMap<String, String> {
+    use std::io::Read;
+    let mut zip = zip::ZipArchive::new(std::fs::File::open(path).expect("opens")).expect("zip");
+    let mut parts = std::collections::BTreeMap::new();
+    for i in 0..zip.len() {
+        let mut f = zip.by_index(i).expect("entry");
+        let mut text = String::new();
+        if f.read_to_string(&mut text).is_ok() {
+            parts.insert(f.name().expect("name").to_string(), text);
+        }
+    }
+    parts
+}
+
+fn column_letter(index: usize) -> String {
+    let mut n = index + 1;
+    let mut s = String::new();
+    while n > 0 {
+        let r = (n - 1) % 26;
+        s.insert(0, (b'A' + r as u8) as char);
+        n = (n - 1) / 26;
+    }
+    s
+}
+
+#[test]
+fn charts_sit_on_the_summary_with_target_air_and_difference_and_pages_fit() {
+    let dir = scratch();
+    books::write_xlsx(&dir.path().join("rich.xlsx"), &books::rich_case());
+    solve(dir.path(), "rich.xlsx");
+    let result = dir.path().join("rich.result.xlsx");
+    let parts = xml_parts(&result);
+    let header: Vec<String> = sheet(&result, "curves")
+        .rows()
+        .next()
+        .expect("header")
+        .iter()
+        .map(text)
+        .collect();
+    let reference = |name: &str| {
+        let c = header.iter().position(|h| h == name).expect(name);
+        format!("curves!${}$2", column_letter(c))
+    };
+
+    // Only the summary (the first sheet) has a drawing, and it holds the three charts.
+    let with_drawings: Vec<&String> = parts
+        .iter()
+        .filter(|(name, body)| {
+            name.starts_with("xl/worksheets/_rels/") && body.contains("relationships/drawing")
+        })
+        .map(|(name, _)| name)
+        .collect();
+    assert_eq!(with_drawings, ["xl/worksheets/_rels/sheet1.xml.rels"]);
+    let charts: Vec<&String> = parts
+        .iter()
+        .filter(|(name, _)| name.starts_with("xl/charts/chart"))
+        .map(|(_, body)| body)
+        .collect();
+    assert_eq!(charts.len(), 3);
+
+    // The drying chart: mean, surface, centre, the target as its own series, and the air on a
+    // secondary axis (a scatter chart with a secondary axis has four value axes).
+    let drying = charts
+        .iter()
+        .find(|c| c.contains("Drying curve"))
+        .expect("drying chart");
+    for name in [
+        "mean_moisture_pct",
+        "surface_moisture_pct",
+        "centre_moisture_pct",
+    ] {
+        assert!(drying.contains(&reference(name)), "{name}");
+    }
+    assert!(drying.contains("<c:v>target</c:v>"), "target line");
+    assert!(drying.contains(&reference("air_temp_c")), "dry bulb");
+    assert!(
+        drying.contains(&reference("air_rh_pct")),
+        "relative humidity"
+    );
+    assert_eq!(drying.matches("<c:valAx>").count(), 4, "secondary axis");
+    // The difference chart plots surface_centre_difference_pct against hours.
+    assert!(
+        charts
+            .iter()
+            .any(|c| c.contains(&reference("surface_centre_difference_pct"))),
+        "difference chart"
+    );
+
+    // Print setup: the summary with its charts on one landscape page; every other sheet one
+    // page wide.
+    let summary = &parts["xl/worksheets/sheet1.xml"];
+    assert!(summary.contains("<pageSetUpPr fitToPage=\"1\"/>"));
+    assert!(summary.contains("orientation=\"landscape\""));
+    assert!(!summary.contains("fitToHeight=\"0\""));
+    for (name, body) in &parts {
+        if name.starts_with("xl/worksheets/sheet") && name != "xl/worksheets/sheet1.xml" {
+            assert!(body.contains("<pageSetUpPr fitToPage=\"1\"/>"), "{name}");
+            assert!(body.contains("fitToHeight=\"0\""), "{name}");
+        }
+    }
+}

@@ -549,10 +549,8 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
             ws.write_number(i as u32 + 1, col + 1, pct(case, target))?;
         }
     }
-    ws.set_repeat_rows(0, 0)?;
     ws.set_landscape();
-    ws.set_paper_size(9);
-    ws.set_print_fit_to_pages(1, 0);
+    print_table(ws)?;
     Ok(())
 }
 
@@ -723,8 +721,7 @@ fn steps_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<()
         opt_number(ws, row, 8, s.air_at_end.rh.map(|x| 100.0 * x), &f.number)?;
     }
     ws.set_landscape();
-    ws.set_paper_size(9);
-    ws.set_print_fit_to_pages(1, 0);
+    print_table(ws)?;
     Ok(())
 }
 
@@ -788,9 +785,7 @@ fn profiles_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result
             opt_number(ws, row, c as u16 + 1, v.map(|x| pct(case, x)), &f.number)?;
         }
     }
-    ws.set_repeat_rows(0, 0)?;
-    ws.set_paper_size(9);
-    ws.set_print_fit_to_pages(1, 0);
+    print_table(ws)?;
     Ok(())
 }
 
@@ -801,6 +796,8 @@ fn check_sheet(
     f: &Formats,
 ) -> Result<(), XlsxError> {
     ws.set_name("check")?;
+    ws.set_landscape();
+    print_table(ws)?;
     let headers: Vec<String> = [
         "hours",
         "model_moisture_ratio",
@@ -864,8 +861,17 @@ fn model_mean_at(case: &Case, run: &RunResult, hours: f64) -> Option<f64> {
 
 /// The `fit` sheet: the parameter table (no parameter is estimated in this version), then the
 /// model against the measured points with goodness-of-fit figures.
+/// Prints a table sheet one page wide, as many pages tall as it needs, header repeated.
+fn print_table(ws: &mut Worksheet) -> Result<(), XlsxError> {
+    ws.set_repeat_rows(0, 0)?;
+    ws.set_paper_size(9);
+    ws.set_print_fit_to_pages(1, 0);
+    Ok(())
+}
+
 fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
     ws.set_name("fit")?;
+    print_table(ws)?;
     let names = |v: &[&str]| v.iter().map(|s| s.to_string()).collect::<Vec<_>>();
     header_row(
         ws,
@@ -944,6 +950,8 @@ fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(),
 
 fn input_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
     ws.set_name("input")?;
+    ws.set_landscape();
+    print_table(ws)?;
     let headers: Vec<String> = ["quantity", "value", "unit", "source"]
         .iter()
         .map(|s| s.to_string())
