@@ -481,3 +481,126 @@ fn charts_sit_on_the_summary_with_target_air_and_difference_and_pages_fit() {
         }
     }
 }
+
+#[test]
+fn the_repository_documents_the_whole_format_itself() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let readme = std::fs::read_to_string(root.join("README.md")).expect("README");
+    assert!(
+        !readme.contains("../shared"),
+        "the README points outside the repository"
+    );
+    assert!(readme.contains("docs/workbook-format.md"));
+    assert!(readme.contains("cargo install --path ."));
+    let page = std::fs::read_to_string(root.join("docs/workbook-format.md")).expect("format page");
+    // Every sheet, key and column of the format page, version 1.1, in and out.
+    let input: &[&str] = &[
+        "case",
+        "layers",
+        "materials",
+        "schedule",
+        "measured",
+        "fit",
+        "variants",
+        "title",
+        "geometry",
+        "exposed",
+        "coupling",
+        "moisture_basis",
+        "cells_per_layer",
+        "end_hours",
+        "target_moisture_pct",
+        "output_every_min",
+        "profile_hours",
+        "flow_length_mm",
+        "name",
+        "material",
+        "thickness_mm",
+        "initial_moisture_pct",
+        "initial_temp_c",
+        "dry_density_kg_m3",
+        "d_ref_m2_s",
+        "d_ref_temp_c",
+        "d_ref_moisture_pct",
+        "activation_energy_kj_mol",
+        "moisture_coef",
+        "isotherm",
+        "iso_a",
+        "iso_b",
+        "iso_c",
+        "conductivity_w_mk",
+        "specific_heat_j_kgk",
+        "gab",
+        "oswin",
+        "henderson",
+        "wood",
+        "none",
+        "step",
+        "hours",
+        "until_moisture_pct",
+        "dry_bulb_c",
+        "rh_pct",
+        "wet_bulb_c",
+        "equilibrium_moisture_pct",
+        "surface_moisture_pct",
+        "surface_coef_m_s",
+        "hm_m_s",
+        "h_w_m2k",
+        "air_velocity_m_s",
+        "ramp",
+        "moisture_pct",
+        "surface_temp_c",
+        "centre_temp_c",
+        "parameters",
+        "variant",
+        "[case]",
+        "[variants]",
+    ];
+    let output: &[&str] = &[
+        "summary",
+        "curves",
+        "steps",
+        "profiles",
+        "check",
+        "input",
+        "problems",
+        "position_mm",
+        "parameter",
+        "estimate",
+        "low_95",
+        "high_95",
+        "unit",
+        "drying_model",
+        "k_per_h",
+        "r2",
+        "rmse",
+        "reduced_chi_square",
+        "lewis",
+        "page",
+        "henderson_pabis",
+        "logarithmic",
+        "slope_method_d_eff_m2_s",
+        "overrides",
+        "status",
+    ];
+    for word in input
+        .iter()
+        .chain(output)
+        .chain(&SUMMARY_KEYS)
+        .chain(&CURVE_COLUMNS)
+        .chain(&CURVE_ADDITIONS)
+        .chain(&STEPS_COLUMNS)
+    {
+        assert!(
+            page.contains(&format!("`{word}`")),
+            "`{word}` is not on the page"
+        );
+    }
+    for pattern in [
+        "layer_N_mean_moisture_pct",
+        "moisture_pct_at_<H>h",
+        "temp_c_at_<H>h",
+    ] {
+        assert!(page.contains(pattern), "{pattern}");
+    }
+}
