@@ -45,14 +45,18 @@ pub enum Command {
         /// Seconds one case may compute before it is stopped with a message.
         #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
         case_seconds: f64,
+        /// Print one JSON object per input (summary keys and values, warnings, problems,
+        /// output paths) instead of the plain lines.
+        #[arg(long)]
+        json: bool,
     },
     /// Watch a folder and answer every new or changed workbook with its result; runs until
     /// SIGINT or SIGTERM.
     Watch {
         /// The folder.
         dir: PathBuf,
-        /// Cases run at once (default: available cores).
-        #[arg(long)]
+        /// Cases run at once, at least 1 (default: available cores).
+        #[arg(long, value_parser = jobs_parser())]
         jobs: Option<usize>,
         /// Wait until a file's size and time have been still this long, ms.
         #[arg(long, default_value_t = 1000)]
@@ -80,8 +84,8 @@ pub enum Command {
     Batch {
         /// The folder.
         dir: PathBuf,
-        /// Cases run at once (default: available cores).
-        #[arg(long)]
+        /// Cases run at once, at least 1 (default: available cores).
+        #[arg(long, value_parser = jobs_parser())]
         jobs: Option<usize>,
         /// Run every input, even those with an up-to-date result.
         #[arg(long)]
@@ -92,6 +96,10 @@ pub enum Command {
         /// Also run sub-folders.
         #[arg(long)]
         recursive: bool,
+        /// Print one JSON object per input that ran on standard output (the closing table
+        /// goes to standard error).
+        #[arg(long)]
+        json: bool,
         /// Wait until a file's size and time have been still this long, ms.
         #[arg(long, default_value_t = 1000, hide = true)]
         settle_ms: u64,
@@ -143,6 +151,11 @@ fn secs(v: f64, what: &str) -> anyhow::Result<Duration> {
 /// The shortest polling interval, s: below it polling would keep a core busy.
 const MIN_POLL_SECS: f64 = 0.1;
 
+/// `--jobs` takes a whole number of at least 1 (0 would run nothing).
+fn jobs_parser() -> clap::builder::RangedU64ValueParser<usize> {
+    clap::builder::RangedU64ValueParser::<usize>::new().range(1..)
+}
+
 fn jobs(j: Option<usize>) -> usize {
     j.unwrap_or(0)
 }
@@ -164,7 +177,8 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             out,
             csv,
             case_seconds,
-        } => solve(&files, out, csv, pipeline(case_seconds)?),
+            json,
+        } => solve(&files, out, csv, json, pipeline(case_seconds)?),
         Command::Watch {
             dir,
             jobs: j,
@@ -198,6 +212,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             force,
             shard,
             recursive,
+            json,
             settle_ms,
             stale_lock_secs,
             case_seconds,
@@ -210,8 +225,27 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.settle = Duration::from_millis(settle_ms);
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.progress = io::stderr().is_terminal();
-            let summary = watch::batch(&opts, Arc::new(pipeline(case_seconds)?))?;
-            print(&summary.to_string())?;
+            let pipeline = Pipeline {
+                json_lines: json,
+                ..pipeline(case_seconds)?
+            };
+            let summary = watch::batch(&opts, Arc::new(pipeline))?;
+            if json {
+                // Inputs that needed a run but were not run get an object of their own.
+                for s in &summary.skipped {
+                    crate::pipeline::print_line(
+                        &serde_json::json!({
+                            "file": opts.dir.join(&s.file).display().to_string(),
+                            "status": "skipped",
+                            "detail": s.reason.to_string(),
+                        })
+                        .to_string(),
+                    );
+                }
+                eprint!("{summary}");
+            } else {
+                print(&summary.to_string())?;
+            }
             if summary.interrupted {
                 let n = summary.not_run();
                 bail!("the pass was interrupted by a signal; {n} input(s) were not run");
@@ -255,6 +289,7 @@ fn solve(
     files: &[PathBuf],
     out: Option<PathBuf>,
     csv: bool,
+    json: bool,
     base: Pipeline,
 ) -> anyhow::Result<Outcome> {
     if let Some(dir) = &out {
@@ -265,6 +300,7 @@ fn solve(
         out_dir: out,
         csv,
         progress: io::stderr().is_terminal(),
+        json_lines: false,
         ..base
     };
     let cancel = AtomicBool::new(false);
@@ -273,9 +309,18 @@ fn solve(
     for file in files {
         let result = pipeline.run_file(file, Attempt::Final, &cancel);
         let mut lines = String::new();
-        for p in &result.problems {
-            lines.push_str(&problem_line(file, p));
+        if json {
+            lines.push_str(&result.json_line(file));
             lines.push('\n');
+        } else {
+            for p in &result.problems {
+                lines.push_str(&problem_line(file, p));
+                lines.push('\n');
+            }
+            if let Some(line) = result.plain_line(file) {
+                lines.push_str(&line);
+                lines.push('\n');
+            }
         }
         print(&lines)?;
         tracing::info!(
@@ -309,10 +354,19 @@ fn new(kind: &str, file: &Path) -> anyhow::Result<Outcome> {
             file.display()
         );
     }
-    let sheets = template::sheets(kind);
-    let is_csv = file
+    let extension = file
         .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
+        .map(|e| e.to_string_lossy().to_ascii_lowercase());
+    let is_csv = match extension.as_deref() {
+        Some("csv") => true,
+        Some("xlsx") => false,
+        _ => bail!(
+            "{}: examples are written as .xlsx or as sectioned .csv; choose a name ending in \
+             .xlsx or .csv (nothing was written)",
+            file.display()
+        ),
+    };
+    let sheets = template::sheets(kind);
     let bytes = if is_csv {
         template::to_csv(&sheets).into_bytes()
     } else {
@@ -358,13 +412,21 @@ fn verify() -> anyhow::Result<Outcome> {
     })
 }
 
+/// Whether log lines carry colour: only on a terminal, and never when `NO_COLOR` is set to
+/// anything but an empty value (the convention of no-color.org).
+pub fn use_colour(is_terminal: bool, no_color: Option<&std::ffi::OsStr>) -> bool {
+    is_terminal && no_color.is_none_or(|v| v.is_empty())
+}
+
 /// Sets up logging to standard error.
 pub fn init_logging(json: bool) {
     let filter = tracing_subscriber::EnvFilter::try_from_default_env()
         .unwrap_or_else(|_| tracing_subscriber::EnvFilter::new("info"));
+    let no_color = std::env::var_os("NO_COLOR");
     let builder = tracing_subscriber::fmt()
         .with_env_filter(filter)
         .with_writer(io::stderr)
+        .with_ansi(use_colour(io::stderr().is_terminal(), no_color.as_deref()))
         .with_target(false);
     if json {
         builder.json().init();

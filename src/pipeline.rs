@@ -8,6 +8,7 @@ use std::time::{Duration, Instant};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use sha2::{Digest, Sha256};
 
+use crate::case::Case;
 use crate::check;
 use crate::solver::{self, Problem, RunControl, RunStatus, SolveError};
 use crate::watch::{self, Attempt, Report, Status};
@@ -29,6 +30,9 @@ pub struct Pipeline {
     pub isolation: Isolation,
     /// Seconds one case may compute before it is stopped with a message; `None`: no limit.
     pub case_seconds: Option<f64>,
+    /// Print one JSON object per finished input on standard output (`batch --json`; `solve`
+    /// prints its own).
+    pub json_lines: bool,
 }
 
 /// The outcome of one file, with the problems for the command line to print.
@@ -40,6 +44,144 @@ pub struct FileOutcome {
     pub problems: Vec<InputProblem>,
     /// Wall-clock seconds.
     pub seconds: f64,
+    /// The result's summary rows, when a result was written.
+    pub summary: Vec<write::SummaryEntry>,
+    /// Warnings shown on the result's summary.
+    pub warnings: Vec<String>,
+    /// Files written for this input.
+    pub outputs: Vec<PathBuf>,
+}
+
+/// What `--json` prints for one input: one JSON object on one line.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct JsonReport {
+    /// The input as given.
+    pub file: String,
+    /// `ok`, `target_not_reached`, `problems`, `not_ready` or `failed`.
+    pub status: &'static str,
+    /// The summary's keys and values (numbers, text, or null for an empty cell).
+    pub summary: serde_json::Map<String, serde_json::Value>,
+    /// The summary's units by key, where a key has one.
+    pub units: serde_json::Map<String, serde_json::Value>,
+    /// Warnings shown on the result's summary.
+    pub warnings: Vec<String>,
+    /// Problems found in the input: sheet, cell, problem.
+    pub problems: Vec<JsonProblem>,
+    /// Files written: the result workbook (and CSV tables), or the errors workbook.
+    pub outputs: Vec<String>,
+    /// A short note (the reason for a failure).
+    pub detail: String,
+}
+
+/// One problem in [`JsonReport`].
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct JsonProblem {
+    /// Sheet name (empty when the problem is with the whole file).
+    pub sheet: String,
+    /// Cell such as `C4` (empty when it concerns a sheet or the file).
+    pub cell: String,
+    /// What is wrong.
+    pub problem: String,
+}
+
+impl FileOutcome {
+    /// The `--json` object of this outcome.
+    pub fn json(&self, file: &Path) -> JsonReport {
+        use serde_json::Value;
+        let status = match self.report.status {
+            Status::Solved => "ok",
+            Status::TargetNotReached => "target_not_reached",
+            Status::Problems => "problems",
+            Status::NotReady => "not_ready",
+            Status::Failed => "failed",
+        };
+        let mut summary = serde_json::Map::new();
+        let mut units = serde_json::Map::new();
+        for e in &self.summary {
+            let value = match &e.value {
+                write::SummaryValue::Text(t) => Value::from(t.as_str()),
+                write::SummaryValue::Number(v) if e.style == write::NumberStyle::Count => {
+                    Value::from(*v as i64)
+                }
+                write::SummaryValue::Number(v) => {
+                    serde_json::Number::from_f64(*v).map_or(Value::Null, Value::Number)
+                }
+                write::SummaryValue::Empty => Value::Null,
+            };
+            summary.insert(e.key.to_string(), value);
+            if !e.unit.is_empty() {
+                units.insert(e.key.to_string(), Value::from(e.unit));
+            }
+        }
+        JsonReport {
+            file: file.display().to_string(),
+            status,
+            summary,
+            units,
+            warnings: self.warnings.clone(),
+            problems: self
+                .problems
+                .iter()
+                .map(|p| JsonProblem {
+                    sheet: p.sheet.clone(),
+                    cell: p.cell.clone(),
+                    problem: p.problem.clone(),
+                })
+                .collect(),
+            outputs: self
+                .outputs
+                .iter()
+                .map(|p| p.display().to_string())
+                .collect(),
+            detail: self.report.detail.clone(),
+        }
+    }
+
+    /// The `--json` line of this outcome (no trailing newline).
+    pub fn json_line(&self, file: &Path) -> String {
+        serde_json::to_string(&self.json(file)).unwrap_or_else(|e| {
+            format!(
+                "{{\"file\":{:?},\"status\":\"failed\",\"detail\":\"could not encode: {e}\"}}",
+                file.display().to_string()
+            )
+        })
+    }
+
+    /// The plain line `solve` prints for an input that ran: drying time in hours and days,
+    /// final mean moisture, status. `None` when no result was written.
+    pub fn plain_line(&self, file: &Path) -> Option<String> {
+        let number = |key: &str| {
+            self.summary
+                .iter()
+                .find(|e| e.key == key)
+                .and_then(|e| match e.value {
+                    write::SummaryValue::Number(v) => Some(v),
+                    _ => None,
+                })
+        };
+        let text = |key: &str| {
+            self.summary
+                .iter()
+                .find(|e| e.key == key)
+                .and_then(|e| match &e.value {
+                    write::SummaryValue::Text(t) => Some(t.clone()),
+                    _ => None,
+                })
+        };
+        let status = text("status")?;
+        let basis = text("moisture_basis").unwrap_or_default();
+        let mean = number("final_mean_moisture_pct")?;
+        let final_h = number("final_hours").unwrap_or(0.0);
+        let time = match (number("drying_time_h"), number("target_moisture_pct")) {
+            (Some(h), _) => format!("drying time {h:.2} h ({:.2} days)", h / 24.0),
+            (None, Some(_)) => format!("target not reached in {final_h:.2} h"),
+            (None, None) => format!("no target; ran {final_h:.2} h"),
+        };
+        Some(format!(
+            "{}: {time}, final mean {mean:.2} % ({basis} basis), {status}",
+            file.display()
+        ))
+    }
 }
 
 fn file_stem(path: &Path) -> String {
@@ -86,11 +228,18 @@ impl Pipeline {
     /// Runs one input file.
     pub fn run_file(&self, input: &Path, attempt: Attempt, cancel: &AtomicBool) -> FileOutcome {
         let started = Instant::now();
-        let (report, problems) = self.run_inner(input, attempt, cancel);
+        let mut written = Written::default();
+        let (report, problems) = self.run_inner(input, attempt, cancel, &mut written);
+        if report.status == Status::Problems {
+            written.outputs = vec![self.output(watch::errors_path(input))];
+        }
         FileOutcome {
             report,
             problems,
             seconds: started.elapsed().as_secs_f64(),
+            summary: written.summary,
+            warnings: written.warnings,
+            outputs: written.outputs,
         }
     }
 
@@ -127,6 +276,7 @@ impl Pipeline {
         input: &Path,
         attempt: Attempt,
         cancel: &AtomicBool,
+        written: &mut Written,
     ) -> (Report, Vec<InputProblem>) {
         let (book, bytes) = match read::read_file_with(input, &self.isolation) {
             Ok(ok) => ok,
@@ -157,6 +307,7 @@ impl Pipeline {
         };
         let case = &parsed.case;
         let problem_data = Problem::new(case);
+        let target_warning = target_warning(case, &problem_data);
         let bar = ProgressBar::hidden();
         bar.set_length(1000);
         bar.set_style(
@@ -205,6 +356,7 @@ impl Pipeline {
             }
         };
         let mut warnings = parsed.warnings.clone();
+        warnings.extend(target_warning);
         warnings.extend(run.warnings.iter().cloned());
         let check = check::series_check(case, &run);
         let bytes = write::result_workbook(&write::ResultInput {
@@ -226,8 +378,8 @@ impl Pipeline {
                 return self.fail(input, vec![problem("", "", text)]);
             }
         };
-        let written = write::write_atomically(&result_path, &bytes).map_err(|e| e.to_string());
-        if let Err(e) = written {
+        let written_ok = write::write_atomically(&result_path, &bytes).map_err(|e| e.to_string());
+        if let Err(e) = written_ok {
             return (
                 Report {
                     status: Status::Failed,
@@ -237,6 +389,7 @@ impl Pipeline {
                 Vec::new(),
             );
         }
+        written.outputs.push(result_path.clone());
         if self.csv {
             let stem = file_stem(input);
             let dir = result_path
@@ -250,7 +403,8 @@ impl Pipeline {
                     write::profiles_csv(case, &run),
                 ),
             ] {
-                if let Err(e) = write::write_atomically(&dir.join(&name), text.as_bytes()) {
+                let path = dir.join(&name);
+                if let Err(e) = write::write_atomically(&path, text.as_bytes()) {
                     return (
                         Report {
                             status: Status::Failed,
@@ -260,6 +414,7 @@ impl Pipeline {
                         Vec::new(),
                     );
                 }
+                written.outputs.push(path);
             }
         }
         // A stale errors workbook from an earlier failure no longer applies.
@@ -267,6 +422,8 @@ impl Pipeline {
         if errors.exists() {
             let _ = std::fs::remove_file(&errors);
         }
+        written.summary = write::summary_entries(case, &run, &sha);
+        written.warnings = warnings;
         let status = match run.status {
             RunStatus::Ok => Status::Solved,
             RunStatus::TargetNotReached => Status::TargetNotReached,
@@ -288,6 +445,52 @@ impl Pipeline {
     }
 }
 
+/// A warning when the target lies beyond every equilibrium the schedule's air can bring the
+/// body to (below the lowest for a drying run, above the highest for a wetting one): the mean
+/// only approaches that equilibrium, so the run would end with `target_not_reached`.
+pub fn target_warning(case: &Case, p: &Problem) -> Option<String> {
+    let target = p.target?;
+    let initial = p.mean(&p.initial);
+    let equilibria: Vec<(f64, &str)> = p
+        .steps
+        .iter()
+        .filter_map(|s| {
+            p.equilibrium_mean(s, s.to)
+                .filter(|x| x.is_finite())
+                .map(|x| (x, s.label.as_str()))
+        })
+        .collect();
+    let pct = |x: f64| case.basis.from_dry_fraction(x);
+    let margin = 1e-9 * target.abs().max(1e-6);
+    let (beyond, which) = if target < initial {
+        let lowest = equilibria.iter().min_by(|a, b| a.0.total_cmp(&b.0))?;
+        (target < lowest.0 - margin, ("lowest", lowest))
+    } else if target > initial {
+        let highest = equilibria.iter().max_by(|a, b| a.0.total_cmp(&b.0))?;
+        (target > highest.0 + margin, ("highest", highest))
+    } else {
+        return None;
+    };
+    let (word, (eq, label)) = which;
+    beyond.then(|| {
+        format!(
+            "target_moisture_pct {:.2} % lies beyond the {word} equilibrium the schedule's air can \
+             bring the body to, {:.2} % (step {label}): the mean only approaches it, so the \
+             target cannot be reached",
+            pct(target),
+            pct(*eq)
+        )
+    })
+}
+
+/// What a run wrote, for the command line's answer.
+#[derive(Debug, Default)]
+struct Written {
+    summary: Vec<write::SummaryEntry>,
+    warnings: Vec<String>,
+    outputs: Vec<PathBuf>,
+}
+
 fn not_ready(why: &str) -> Report {
     Report {
         status: Status::NotReady,
@@ -306,6 +509,17 @@ impl watch::Processor for Pipeline {
         for p in &outcome.problems {
             tracing::warn!("{}", problem_line(input, p));
         }
+        if self.json_lines && outcome.report.status != Status::NotReady {
+            print_line(&outcome.json_line(input));
+        }
         outcome.report
     }
+}
+
+/// Prints one line on standard output at once (lines of parallel runs never interleave); a
+/// closed pipe is not an error.
+pub fn print_line(line: &str) {
+    use std::io::Write as _;
+    let mut out = std::io::stdout().lock();
+    let _ = writeln!(out, "{line}").and_then(|()| out.flush());
 }

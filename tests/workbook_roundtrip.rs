@@ -30,7 +30,8 @@ fn num(d: &Data) -> f64 {
     }
 }
 
-const SUMMARY_KEYS: [&str; 17] = [
+// The summary keys of the workbook format page, version 1.1, in its order.
+const SUMMARY_KEYS: [&str; 23] = [
     "title",
     "status",
     "drying_time_h",
@@ -48,6 +49,12 @@ const SUMMARY_KEYS: [&str; 17] = [
     "solve_seconds",
     "program_version",
     "input_sha256",
+    "target_moisture_pct",
+    "drying_time_days",
+    "time_of_max_difference_h",
+    "final_surface_water_activity",
+    "final_centre_water_activity",
+    "evaporation_energy_kj_m2",
 ];
 
 #[test]
@@ -74,8 +81,10 @@ fn a_written_case_solves_and_its_result_follows_the_contract() {
 
     let summary = sheet(&result, "summary");
     let rows: Vec<&[Data]> = summary.rows().collect();
+    let head: Vec<String> = rows[0][..3].iter().map(text).collect();
+    assert_eq!(head, ["key", "value", "unit"], "the summary's header row");
     let keys: Vec<String> = rows.iter().map(|r| text(&r[0])).collect();
-    assert_eq!(&keys[..17], &SUMMARY_KEYS[..]);
+    assert_eq!(&keys[1..24], &SUMMARY_KEYS[..]);
     let value = |key: &str| &rows[keys.iter().position(|k| k == key).expect("key")][1];
     // Text from the input is written as text: calamine sees a string, not a formula result.
     assert_eq!(text(value("title")), "=1+2 is text, not a formula");
@@ -87,7 +96,21 @@ fn a_written_case_solves_and_its_result_follows_the_contract() {
     );
     assert!((num(value("final_hours")) - 10.0).abs() < 1e-9);
     assert!(num(value("mass_balance_error")) <= 1e-9);
-    assert_eq!(num(value("cells")), 40.0);
+    // A single layer exposed on both faces: cells_per_layer (40) for each half.
+    assert_eq!(num(value("cells")), 80.0);
+    assert_eq!(
+        *value("target_moisture_pct"),
+        Data::Empty,
+        "no target given"
+    );
+    assert_eq!(*value("drying_time_days"), Data::Empty);
+    assert_eq!(
+        *value("evaporation_energy_kj_m2"),
+        Data::Empty,
+        "isothermal run"
+    );
+    // A fixed surface from the start: the largest difference is at the first step.
+    assert!(num(value("time_of_max_difference_h")) < 0.1);
     assert_eq!(text(value("input_sha256")), before);
     assert!(keys.iter().any(|k| k == "caution"));
 
@@ -144,10 +167,18 @@ fn a_written_case_solves_and_its_result_follows_the_contract() {
             "moisture_pct_at_2.5h"
         ]
     );
-    let positions: Vec<f64> = profiles.rows().skip(1).map(|r| num(&r[0])).collect();
-    assert_eq!(positions.len(), 40);
-    assert!(positions.iter().all(|&p| p > 0.0 && p < 12.0));
+    let rows: Vec<&[Data]> = profiles.rows().skip(1).collect();
+    let positions: Vec<f64> = rows.iter().map(|r| num(&r[0])).collect();
+    // 40 cell centres and, both faces being exposed, a row for each face.
+    assert_eq!(positions.len(), 42);
+    assert_eq!(positions[0], 0.0);
+    assert!((positions[41] - 12.0).abs() < 1e-12);
+    assert!(positions[1..41].iter().all(|&p| p > 0.0 && p < 12.0));
     assert!(positions.windows(2).all(|w| w[0] < w[1]));
+    // The face rows hold the surface value: the step holds both surfaces at 10 %.
+    for r in [rows[0], rows[41]] {
+        assert!((num(&r[2]) - 10.0).abs() < 1e-12, "{r:?}");
+    }
 
     // The check sheet: the run against Crank's series (plane sheet, fixed surface), within the
     // engine's default-mesh limit of 1e-3 in moisture ratio.
@@ -198,7 +229,10 @@ fn the_same_case_as_xlsx_ods_and_csv_gives_the_same_result() {
     }
     // The rich case reaches its target and reports the drying time.
     let summary = sheet(&dir.path().join("same.result.xlsx"), "summary");
-    let status = summary.rows().nth(1).map(|r| text(&r[1]));
+    let status = summary
+        .rows()
+        .find(|r| text(&r[0]) == "status")
+        .map(|r| text(&r[1]));
     assert_eq!(status.as_deref(), Some("ok"));
 }
 
@@ -217,11 +251,19 @@ fn solve_writes_csv_tables_and_into_an_out_folder() {
     let curves = std::fs::read_to_string(results.join("c.curves.csv")).expect("curves csv");
     assert!(curves.starts_with("hours,mean_moisture_pct,surface_moisture_pct,"));
     assert_eq!(curves.lines().count(), 102);
+    assert!(curves.lines().next().expect("header").ends_with(
+        ",layer_1_mean_moisture_pct,equilibrium_moisture_pct,surface_water_activity,\
+         centre_water_activity,surface_centre_difference_pct"
+    ));
     let profiles = std::fs::read_to_string(results.join("c.profiles.csv")).expect("profiles csv");
     assert!(
         profiles
             .starts_with("position_mm,moisture_pct_at_0h,moisture_pct_at_1h,moisture_pct_at_2.5h")
     );
+    // 80 cells (40 per exposed half) and the face rows: position 0 and the full 12 mm.
+    assert_eq!(profiles.lines().count(), 1 + 82);
+    assert!(profiles.lines().nth(1).expect("row").starts_with("0,"));
+    assert!(profiles.lines().last().expect("row").starts_with("12,"));
     let _ = V::E;
 }
 

@@ -5,7 +5,10 @@
 //! at the edge. [`Case::validate`] returns every problem it finds as values, each with a
 //! [`Place`] that the workbook layer turns into a sheet and cell.
 
+mod plausible;
 mod validate;
+
+pub use plausible::{DRY_PCT, HOT_C, LOW_RH, THIN_M};
 
 pub use validate::{Place, Problem};
 

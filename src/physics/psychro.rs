@@ -195,6 +195,25 @@ pub fn rh_from_wet_bulb(dry_bulb_c: f64, wet_bulb_c: f64, p_pa: f64) -> f64 {
     (p_w / saturation_pressure_pa(dry_bulb_c)).clamp(0.0, 1.0)
 }
 
+/// Thermodynamic wet bulb (degrees C) of air at dry bulb `dry_bulb_c` and relative humidity
+/// `rh` (fraction) at total pressure `p_pa`: the inverse of [`rh_from_wet_bulb`], by bisection
+/// (RH rises with the wet bulb at a fixed dry bulb). `None` outside 0 <= RH <= 1.
+pub fn wet_bulb_from_rh(dry_bulb_c: f64, rh: f64, p_pa: f64) -> Option<f64> {
+    if !(0.0..=1.0).contains(&rh) || !dry_bulb_c.is_finite() {
+        return None;
+    }
+    let (mut lo, mut hi) = (dry_bulb_c - 60.0, dry_bulb_c);
+    for _ in 0..80 {
+        let mid = 0.5 * (lo + hi);
+        if rh_from_wet_bulb(dry_bulb_c, mid, p_pa) < rh {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    Some(0.5 * (lo + hi))
+}
+
 /// Auxiliary-equation coefficients, IAPWS SR1-86 (1992) / Wagner & Pruss (1993),
 /// J. Phys. Chem. Ref. Data 22:783: vapour pressure (eq. 1), exponents and coefficients.
 const WP_P_EXP: [f64; 6] = [1.0, 1.5, 3.0, 3.5, 4.0, 7.5];

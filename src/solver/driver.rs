@@ -6,7 +6,7 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::Instant;
 
 use super::SolveError;
-use super::problem::Problem;
+use super::problem::{Air, Problem, StepPlan};
 use super::stepper::{Stats, Stepper, StopReason};
 
 /// One output row. Moistures are dry-basis fractions; temperatures in degrees C.
@@ -38,6 +38,12 @@ pub struct CurveRow {
     pub step: usize,
     /// Mean moisture of each layer.
     pub layer_means: Vec<f64>,
+    /// The exposed surface's equilibrium moisture with the air in force, where known.
+    pub equilibrium: Option<f64>,
+    /// Water activity at the surface (from its material's isotherm), where known.
+    pub surface_water_activity: Option<f64>,
+    /// Water activity at the centre, where known.
+    pub centre_water_activity: Option<f64>,
 }
 
 /// A whole moisture profile at one time.
@@ -50,6 +56,62 @@ pub struct Profile {
     /// Temperature of each cell (degrees C) in coupled runs, `None` otherwise or where the run
     /// ended before this time.
     pub temperature: Option<Vec<f64>>,
+    /// Surface temperature at face A when it is exposed, in coupled runs.
+    pub face_a_temp: Option<f64>,
+    /// Surface temperature at face B when it is exposed, in coupled runs.
+    pub face_b_temp: Option<f64>,
+    /// Surface moisture at face A when it is exposed (and the profile was taken).
+    pub face_a: Option<f64>,
+    /// Surface moisture at face B when it is exposed (and the profile was taken).
+    pub face_b: Option<f64>,
+}
+
+/// How a schedule step ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StepEnd {
+    /// Its hours ran out.
+    Time,
+    /// The mean moisture reached its `until_moisture`.
+    Moisture,
+    /// The mean moisture reached the case's target; the run ended.
+    Target,
+    /// The run's end time came first.
+    End,
+    /// Its `until_moisture` was already reached when it began: it did not run.
+    Skipped,
+}
+
+impl StepEnd {
+    /// The word the `steps` sheet shows.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            StepEnd::Time => "time",
+            StepEnd::Moisture => "moisture",
+            StepEnd::Target => "target",
+            StepEnd::End => "end",
+            StepEnd::Skipped => "skipped",
+        }
+    }
+}
+
+/// One schedule step that ran or was skipped.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StepRecord {
+    /// Index into the schedule.
+    pub index: usize,
+    /// When it began, s.
+    pub start: f64,
+    /// When it ended, s.
+    pub end: f64,
+    /// Why it ended.
+    pub ended_by: StepEnd,
+    /// Mean moisture at its end, dry fraction.
+    pub mean_at_end: f64,
+    /// The (surface, centre) moistures, dry fraction, where |surface - centre| was largest
+    /// within the step (`None` when skipped).
+    pub max_difference_pair: Option<(f64, f64)>,
+    /// Air at its end (a skipped step: the air it would have ended with).
+    pub air_at_end: Air,
 }
 
 /// How a run ended.
@@ -85,8 +147,6 @@ pub struct RunResult {
     /// Coupled runs: |convective heat in - (change of stored energy + latent heat + sensible
     /// heat of the water that left)| / the largest of those terms. `None` when isothermal.
     pub energy_balance_error: Option<f64>,
-    /// Coupled runs: latent heat taken up by the water removed, J per m2 of exposed surface.
-    pub evaporation_energy_j_m2: Option<f64>,
     /// Cells.
     pub cells: usize,
     /// Solver work.
@@ -97,6 +157,15 @@ pub struct RunResult {
     pub step_starts: Vec<(f64, usize)>,
     /// Things the user should know (e.g. the schedule ran out).
     pub warnings: Vec<String>,
+    /// Each schedule step that ran or was skipped, in order.
+    pub steps: Vec<StepRecord>,
+    /// When the largest surface-centre difference was seen, s.
+    pub time_of_max_difference: Option<f64>,
+    /// Latent heat taken up by the water removed, kJ per m2 of exposed surface: coupled runs
+    /// only, `None` for isothermal runs.
+    pub evaporation_energy: Option<f64>,
+    /// Distance from face A to face B (the radius of a cylinder or sphere), m.
+    pub thickness: f64,
 }
 
 impl RunResult {
@@ -142,6 +211,25 @@ struct Driver<'p> {
     step_starts: Vec<(f64, usize)>,
     schedule_done: bool,
     warnings: Vec<String>,
+    steps: Vec<StepRecord>,
+    step_max_difference: f64,
+    step_max_pair: Option<(f64, f64)>,
+    time_of_max: Option<f64>,
+}
+
+/// The exposed surface's equilibrium moisture under `air` in `step`: a fixed surface value,
+/// the given equilibrium, or the surface material's isotherm at the air's humidity.
+fn surface_equilibrium(p: &Problem, step: &StepPlan, air: Air) -> Option<f64> {
+    if let crate::case::Exchange::FixedSurface(x) = step.exchange {
+        return Some(x);
+    }
+    let site = p.face_a.or(p.face_b)?;
+    step.equilibrium_moisture.or_else(|| {
+        let iso = p.materials[site.material].isotherm;
+        air.rh
+            .and_then(|rh| iso.equilibrium_moisture(rh, air.dry_bulb_c))
+            .filter(|x| x.is_finite())
+    })
 }
 
 /// Time comparisons tolerate this relative round-off.
@@ -173,7 +261,88 @@ impl<'p> Driver<'p> {
             step_starts: vec![(0.0, 0)],
             schedule_done: false,
             warnings: Vec::new(),
+            steps: Vec::new(),
+            step_max_difference: 0.0,
+            step_max_pair: None,
+            time_of_max: None,
         }
+    }
+
+    /// Records the end of the step in force (nothing once the schedule has run out: the last
+    /// step was recorded when it ended).
+    fn close_step(&mut self, ended_by: StepEnd) {
+        if self.schedule_done {
+            return;
+        }
+        let (index, start) = self.stepper.schedule_step();
+        let t = self.stepper.time();
+        self.steps.push(StepRecord {
+            index,
+            start,
+            end: t,
+            ended_by,
+            mean_at_end: self.p.mean(self.stepper.moisture()),
+            max_difference_pair: self.step_max_pair,
+            air_at_end: self.stepper.air_at(t),
+        });
+    }
+
+    /// Whether the step in force began with its `until_moisture` already reached, judged from
+    /// its own air: a step whose air dries the body (mean above the equilibrium it drives
+    /// towards) has reached a level at or above the mean; one whose air wets it, a level at
+    /// or below. Returns whether the air dries.
+    fn already_reached(&self) -> Option<bool> {
+        let (index, _) = self.stepper.schedule_step();
+        let step = self.p.steps.get(index)?;
+        let level = step.until_moisture?;
+        let mean = self.p.mean(self.stepper.moisture());
+        if mean == level {
+            return Some(true);
+        }
+        let eq = self
+            .p
+            .equilibrium_mean(step, step.to)
+            .filter(|x| x.is_finite())
+            .or_else(|| surface_equilibrium(self.p, step, step.to))?;
+        if eq == mean {
+            return None;
+        }
+        let dries = mean > eq;
+        let reached = if dries { mean <= level } else { mean >= level };
+        reached.then_some(dries)
+    }
+
+    /// Starts the step now in force: skips it (with a warning) when its trigger is already
+    /// reached, and resets the within-step figures otherwise.
+    fn enter_step(&mut self) {
+        if let Some(dries) = self.already_reached() {
+            let (index, _) = self.stepper.schedule_step();
+            let t = self.stepper.time();
+            let step = &self.p.steps[index];
+            self.steps.push(StepRecord {
+                index,
+                start: t,
+                end: t,
+                ended_by: StepEnd::Skipped,
+                mean_at_end: self.p.mean(self.stepper.moisture()),
+                max_difference_pair: None,
+                air_at_end: step.to,
+            });
+            self.warnings.push(format!(
+                "step {} ({}) was skipped: when it began at {:.3} h the mean moisture had \
+                 already reached its until_moisture_pct, and its air {} the product",
+                index + 1,
+                step.label,
+                t / 3600.0,
+                if dries { "dries" } else { "wets" }
+            ));
+            self.advance_schedule();
+            return;
+        }
+        self.step_max_difference = 0.0;
+        self.step_max_pair = None;
+        self.track_difference();
+        self.set_triggers();
     }
 
     fn output_time(&self, k: u64) -> f64 {
@@ -200,16 +369,19 @@ impl<'p> Driver<'p> {
     }
 
     fn run(&mut self, control: &RunControl<'_>) -> Result<(), SolveError> {
-        self.record_row();
-        self.track_difference();
-        self.take_profiles();
-        self.set_triggers();
         if let Some(target) = self.p.target
             && (same_time(self.initial_mean, target) || self.initial_mean == target)
         {
+            self.record_row();
+            self.track_difference();
+            self.take_profiles();
+            self.close_step(StepEnd::Target);
             self.drying_time = Some(0.0);
             return Ok(());
         }
+        self.enter_step();
+        self.record_row();
+        self.take_profiles();
         let end = self.p.end_time;
         let mut last_progress = 0.0;
         loop {
@@ -263,6 +435,8 @@ impl<'p> Driver<'p> {
                         if !recorded {
                             self.record_row();
                         }
+                        let own_end = self.step_end().is_some_and(|e| same_time(t, e) || e < t);
+                        self.close_step(if own_end { StepEnd::Time } else { StepEnd::End });
                         if self.p.target.is_some() {
                             self.status = RunStatus::TargetNotReached;
                         }
@@ -272,18 +446,21 @@ impl<'p> Driver<'p> {
                         if !recorded {
                             self.record_row();
                         }
+                        self.close_step(StepEnd::Time);
                         self.advance_schedule();
                     }
                 }
                 StopReason::Trigger(0) => {
                     self.record_row();
                     self.take_profiles();
+                    self.close_step(StepEnd::Target);
                     self.drying_time = Some(t);
                     return Ok(());
                 }
                 StopReason::Trigger(_) => {
                     self.record_row();
                     self.take_profiles();
+                    self.close_step(StepEnd::Moisture);
                     self.advance_schedule();
                 }
             }
@@ -296,20 +473,9 @@ impl<'p> Driver<'p> {
         if i + 1 < self.p.steps.len() {
             self.stepper.set_schedule_step(i + 1, t);
             self.step_starts.push((t, i + 1));
-            // A step whose trigger is already met ends at once.
-            let mean = self.p.mean(self.stepper.moisture());
-            if let Some(level) = self.p.steps[i + 1].until_moisture {
-                let direction = self.initial_mean - level;
-                if direction * (mean - level) <= 0.0 {
-                    self.warnings.push(format!(
-                        "step {} ({}) began with its until_moisture already reached; it was skipped",
-                        i + 2,
-                        self.p.steps[i + 1].label
-                    ));
-                    self.advance_schedule();
-                    return;
-                }
-            }
+            // A step whose trigger is already met is skipped.
+            self.enter_step();
+            return;
         } else if !self.schedule_done {
             self.schedule_done = true;
             self.warnings.push(format!(
@@ -329,6 +495,11 @@ impl<'p> Driver<'p> {
         if d > self.max_difference || self.max_pair.is_none() {
             self.max_difference = d;
             self.max_pair = Some((surface, centre));
+            self.time_of_max = Some(self.stepper.time());
+        }
+        if d > self.step_max_difference || self.step_max_pair.is_none() {
+            self.step_max_difference = d;
+            self.step_max_pair = Some((surface, centre));
         }
     }
 
@@ -370,11 +541,28 @@ impl<'p> Driver<'p> {
                 p.centre_value(temps),
             )
         };
+        let centre = p.centre_value(x);
+        let surface_material = p
+            .face_a
+            .or(p.face_b)
+            .map_or(p.cell_material[0], |f| f.material);
+        let [(i, wi), (j, wj)] = p.centre;
+        let centre_material = p.cell_material[if wi >= wj { i } else { j }];
+        let activity = |material: usize, x: f64, t_c: f64| {
+            p.materials[material]
+                .isotherm
+                .water_activity(x, t_c)
+                .filter(|a| a.is_finite())
+        };
+        let equilibrium = p
+            .steps
+            .get(step_index)
+            .and_then(|step| surface_equilibrium(p, step, air));
         let row = CurveRow {
             time: t,
             mean,
             surface,
-            centre: p.centre_value(x),
+            centre,
             moisture_ratio,
             mean_temp_c,
             surface_temp_c,
@@ -384,6 +572,9 @@ impl<'p> Driver<'p> {
             air_rh: air.rh,
             step: step_index,
             layer_means,
+            equilibrium,
+            surface_water_activity: activity(surface_material, surface, surface_temp_c),
+            centre_water_activity: activity(centre_material, centre, centre_temp_c),
         };
         if self.curves.last().is_some_and(|r| same_time(r.time, t)) {
             self.curves.pop();
@@ -397,17 +588,29 @@ impl<'p> Driver<'p> {
         (!t.is_empty()).then(|| t.clone())
     }
 
+    /// A profile of the current state at time `time`, with the exposed faces' surface values.
+    fn profile_now(&mut self, time: f64) -> Profile {
+        let surfaces = self.stepper.surfaces();
+        let coupled = self.p.thermal.is_some();
+        Profile {
+            time,
+            moisture: Some(self.stepper.moisture().to_vec()),
+            temperature: self.temperatures(),
+            face_a: self.p.face_a.map(|_| surfaces.x_a),
+            face_b: self.p.face_b.map(|_| surfaces.x_b),
+            face_a_temp: self.p.face_a.filter(|_| coupled).map(|_| surfaces.t_a),
+            face_b_temp: self.p.face_b.filter(|_| coupled).map(|_| surfaces.t_b),
+        }
+    }
+
     fn take_profiles(&mut self) {
         let t = self.stepper.time();
         while let Some(&pt) = self.p.profile_times.get(self.next_profile) {
             if !(same_time(pt, t) || pt < t) {
                 break;
             }
-            self.profiles.push(Profile {
-                time: pt,
-                moisture: Some(self.stepper.moisture().to_vec()),
-                temperature: self.temperatures(),
-            });
+            let profile = self.profile_now(pt);
+            self.profiles.push(profile);
             self.next_profile += 1;
         }
     }
@@ -423,15 +626,16 @@ impl<'p> Driver<'p> {
                     time: pt,
                     moisture: None,
                     temperature: None,
+                    face_a: None,
+                    face_b: None,
+                    face_a_temp: None,
+                    face_b_temp: None,
                 });
             }
         }
         if !p.profile_times_given && self.profiles.last().is_none_or(|pr| !same_time(pr.time, t)) {
-            self.profiles.push(Profile {
-                time: t,
-                moisture: Some(self.stepper.moisture().to_vec()),
-                temperature: self.temperatures(),
-            });
+            let profile = self.profile_now(t);
+            self.profiles.push(profile);
         }
         if p.profile_times_given && self.next_profile < p.profile_times.len() {
             self.warnings.push(format!(
@@ -446,7 +650,7 @@ impl<'p> Driver<'p> {
         } else {
             ((self.initial_water - water_now) - out).abs()
         };
-        let (energy_balance_error, evaporation_energy_j_m2) = match &p.thermal {
+        let (energy_balance_error, evaporation_energy) = match &p.thermal {
             Some(thermal) => {
                 let e = self.stepper.exchanged();
                 let stored = super::coupled::stored_energy(p, thermal, self.stepper.state())
@@ -460,8 +664,9 @@ impl<'p> Driver<'p> {
                     .max(stored.abs())
                     .max(e.latent.abs())
                     .max(f64::MIN_POSITIVE);
+                // kJ per m2 of exposed surface.
                 let per_area = if p.exposed_area > 0.0 {
-                    e.latent / p.exposed_area
+                    e.latent / p.exposed_area / 1000.0
                 } else {
                     0.0
                 };
@@ -485,12 +690,15 @@ impl<'p> Driver<'p> {
             water_removed,
             mass_balance_error,
             energy_balance_error,
-            evaporation_energy_j_m2,
             cells: p.len(),
             stats: self.stepper.stats(),
             solve_seconds,
             step_starts: self.step_starts,
             warnings: self.warnings,
+            steps: self.steps,
+            time_of_max_difference: self.time_of_max,
+            evaporation_energy,
+            thickness: p.mesh.length,
         }
     }
 }

@@ -17,7 +17,7 @@ mod stepper;
 pub mod tridiag;
 mod workspace;
 
-pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
+pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, StepEnd, StepRecord, run};
 pub use problem::Problem;
 pub use state::State;
 pub use stepper::{Controller, Stats, Stepper, StopReason};

@@ -252,6 +252,11 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
     if !ctx.problems.is_empty() {
         return Err(finish_problems(ctx.problems));
     }
+    // Values that run but look like a slipped unit: warnings at their cells.
+    for p in case.plausibility() {
+        let at = places.locate(&p.place, &p.message);
+        ctx.warn(&at, p.message);
+    }
     let mut warnings = ctx.warnings;
     warnings.sort_by_key(|(l, _)| l.order);
     // Every problem validation reports was reported above, so this only wraps the case.

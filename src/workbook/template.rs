@@ -334,7 +334,7 @@ fn food() -> Vec<Sheet> {
             ),
             (
                 "profile_hours",
-                t("0, 0.5, 1, 2, 4, 8"),
+                t("0, 0.5, 1, 2, 3, 4"),
                 "times of whole profiles, h",
             ),
             (
@@ -411,7 +411,7 @@ fn clay() -> Vec<Sheet> {
             ),
             (
                 "profile_hours",
-                t("0, 6, 12, 24, 48"),
+                t("0, 3, 6, 12, 18, 24"),
                 "times of whole profiles, h",
             ),
         ]),

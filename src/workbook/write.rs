@@ -8,8 +8,9 @@ use std::io::Write as _;
 use std::path::Path;
 
 use rust_xlsxwriter::{
-    Chart, ChartLegendPosition, ChartMarker, ChartMarkerType, ChartType, DocProperties,
-    ExcelDateTime, Format, FormatAlign, Workbook, Worksheet, XlsxError,
+    Chart, ChartFormat, ChartLegendPosition, ChartLine, ChartLineDashType, ChartMarker,
+    ChartMarkerType, ChartType, DocProperties, ExcelDateTime, Format, FormatAlign, Workbook,
+    Worksheet, XlsxError,
 };
 
 use crate::case::{Case, MoistureBasis};
@@ -62,6 +63,7 @@ struct Formats {
     number: Format,
     hours: Format,
     small: Format,
+    count: Format,
     wrap: Format,
 }
 
@@ -72,7 +74,11 @@ impl Formats {
             number: Format::new().set_num_format("0.000"),
             hours: Format::new().set_num_format("0.00"),
             small: Format::new().set_num_format("0.000E+00"),
-            wrap: Format::new().set_text_wrap(),
+            count: Format::new().set_num_format("0"),
+            wrap: Format::new()
+                .set_text_wrap()
+                .set_align(FormatAlign::Top)
+                .set_align(FormatAlign::Left),
         }
     }
 }
@@ -111,6 +117,7 @@ pub fn result_workbook(r: &ResultInput<'_>) -> Result<Vec<u8>, XlsxError> {
     let f = Formats::new();
     summary_sheet(wb.add_worksheet(), r, &f)?;
     curves_sheet(&mut wb, r, &f)?;
+    steps_sheet(&mut wb, r, &f)?;
     profiles_sheet(&mut wb, r, &f)?;
     if !r.measured.is_empty() {
         fit_sheet(wb.add_worksheet(), r, &f)?;
@@ -133,111 +140,326 @@ fn basis_unit(case: &Case) -> &'static str {
     }
 }
 
-fn summary_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
-    ws.set_name("summary")?;
-    let case = r.case;
-    let run = r.run;
-    let last = run.last();
-    let unit = basis_unit(case);
-    let status = match run.status {
+/// A summary value: text, a number, or nothing (an empty cell).
+#[derive(Debug, Clone, PartialEq)]
+pub enum SummaryValue {
+    /// Text.
+    Text(String),
+    /// A finite number.
+    Number(f64),
+    /// No value: an empty cell.
+    Empty,
+}
+
+/// How a number on the summary is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NumberStyle {
+    /// Three decimals.
+    Plain,
+    /// Two decimals (hours, days).
+    Hours,
+    /// Scientific notation.
+    Small,
+    /// A whole number, no decimals.
+    Count,
+}
+
+/// One row of the `summary` sheet: key, value, unit and a note.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SummaryEntry {
+    /// Column A.
+    pub key: &'static str,
+    /// Column B.
+    pub value: SummaryValue,
+    /// Column C: the unit symbol (empty for text and plain ratios).
+    pub unit: &'static str,
+    /// Column D: a note for the reader.
+    pub note: String,
+    /// Number format.
+    pub style: NumberStyle,
+}
+
+/// The `summary` keys in the contract's order (format 1.1), before warnings and cautions.
+pub const SUMMARY_KEYS: [&str; 23] = [
+    "title",
+    "status",
+    "drying_time_h",
+    "final_hours",
+    "final_mean_moisture_pct",
+    "final_surface_moisture_pct",
+    "final_centre_moisture_pct",
+    "max_surface_centre_difference_pct",
+    "final_surface_temp_c",
+    "final_centre_temp_c",
+    "water_removed_kg_m2",
+    "mass_balance_error",
+    "cells",
+    "time_steps",
+    "solve_seconds",
+    "program_version",
+    "input_sha256",
+    "target_moisture_pct",
+    "drying_time_days",
+    "time_of_max_difference_h",
+    "final_surface_water_activity",
+    "final_centre_water_activity",
+    "evaporation_energy_kj_m2",
+];
+
+/// The status word of a run.
+pub fn status_word(status: RunStatus) -> &'static str {
+    match status {
         RunStatus::Ok => "ok",
         RunStatus::TargetNotReached => "target_not_reached",
+    }
+}
+
+/// The summary's keys and values (the contract's keys, then `moisture_basis`), shared by the
+/// sheet and the command line's `--json`.
+pub fn summary_entries(case: &Case, run: &RunResult, input_sha256: &str) -> Vec<SummaryEntry> {
+    use NumberStyle::{Count, Hours, Plain, Small};
+    let last = run.last();
+    let basis_note = match case.basis {
+        MoistureBasis::Dry => "dry basis",
+        MoistureBasis::Wet => "wet basis",
     };
-    let final_temp = |pick: fn(&crate::solver::CurveRow) -> f64| last.map(pick);
+    let num = |v: Option<f64>| match v.filter(|v| v.is_finite()) {
+        Some(v) => SummaryValue::Number(v),
+        None => SummaryValue::Empty,
+    };
+    let text = |t: &str| SummaryValue::Text(t.to_string());
     let diff = run
         .max_surface_centre_difference_pair
         .map(|(s, c)| (pct(case, s) - pct(case, c)).abs());
-    let numbers: Vec<(&str, Option<f64>, &str)> = vec![
-        ("drying_time_h", run.drying_time.map(|t| t / 3600.0), "h"),
-        ("final_hours", last.map(|l| l.time / 3600.0), "h"),
-        (
+    let drying_h = run.drying_time.map(|t| t / 3600.0);
+    let e = |key, value, unit, note: &str, style| SummaryEntry {
+        key,
+        value,
+        unit,
+        note: note.to_string(),
+        style,
+    };
+    vec![
+        e("title", text(&case.title), "", "", Plain),
+        e("status", text(status_word(run.status)), "", "", Plain),
+        e(
+            "drying_time_h",
+            num(drying_h),
+            "h",
+            "when the mean reached the target",
+            Hours,
+        ),
+        e(
+            "final_hours",
+            num(last.map(|l| l.time / 3600.0)),
+            "h",
+            "",
+            Hours,
+        ),
+        e(
             "final_mean_moisture_pct",
-            last.map(|l| pct(case, l.mean)),
-            unit,
+            num(last.map(|l| pct(case, l.mean))),
+            "%",
+            basis_note,
+            Plain,
         ),
-        (
+        e(
             "final_surface_moisture_pct",
-            last.map(|l| pct(case, l.surface)),
-            unit,
+            num(last.map(|l| pct(case, l.surface))),
+            "%",
+            basis_note,
+            Plain,
         ),
-        (
+        e(
             "final_centre_moisture_pct",
-            last.map(|l| pct(case, l.centre)),
-            unit,
+            num(last.map(|l| pct(case, l.centre))),
+            "%",
+            basis_note,
+            Plain,
         ),
-        (
+        e(
             "max_surface_centre_difference_pct",
-            diff.or(Some(0.0)),
-            unit,
+            num(diff.or(Some(0.0))),
+            "%",
+            "largest over every time step",
+            Plain,
         ),
-        (
+        e(
             "final_surface_temp_c",
-            final_temp(|l| l.surface_temp_c),
-            "C",
+            num(last.map(|l| l.surface_temp_c)),
+            "°C",
+            "",
+            Plain,
         ),
-        ("final_centre_temp_c", final_temp(|l| l.centre_temp_c), "C"),
-        (
+        e(
+            "final_centre_temp_c",
+            num(last.map(|l| l.centre_temp_c)),
+            "°C",
+            "",
+            Plain,
+        ),
+        e(
             "water_removed_kg_m2",
-            Some(run.water_removed),
-            "kg per m2 of exposed surface",
+            num(Some(run.water_removed)),
+            "kg/m²",
+            "per m² of exposed surface",
+            Plain,
         ),
-        (
+        e(
             "mass_balance_error",
-            Some(run.mass_balance_error),
+            num(Some(run.mass_balance_error)),
+            "",
             "relative to the water held at the start",
+            Small,
         ),
-        ("cells", Some(run.cells as f64), ""),
-        (
+        e("cells", num(Some(run.cells as f64)), "", "", Count),
+        e(
             "time_steps",
-            Some(run.stats.accepted as f64),
+            num(Some(run.stats.accepted as f64)),
+            "",
             "accepted steps",
+            Count,
         ),
-        ("solve_seconds", Some(run.solve_seconds), "s"),
-    ];
-    // A key sheet: no header row, the first row is `title`.
+        e(
+            "solve_seconds",
+            num(Some(run.solve_seconds)),
+            "s",
+            "",
+            Plain,
+        ),
+        e("program_version", text(PROGRAM_VERSION), "", "", Plain),
+        e("input_sha256", text(input_sha256), "", "", Plain),
+        e(
+            "target_moisture_pct",
+            num(case.target_moisture.map(|x| pct(case, x))),
+            "%",
+            basis_note,
+            Plain,
+        ),
+        e(
+            "drying_time_days",
+            num(drying_h.map(|h| h / 24.0)),
+            "d",
+            "",
+            Hours,
+        ),
+        e(
+            "time_of_max_difference_h",
+            num(run.time_of_max_difference.map(|t| t / 3600.0)),
+            "h",
+            "",
+            Hours,
+        ),
+        e(
+            "final_surface_water_activity",
+            num(last.and_then(|l| l.surface_water_activity)),
+            "",
+            "from the surface material's isotherm",
+            Plain,
+        ),
+        e(
+            "final_centre_water_activity",
+            num(last.and_then(|l| l.centre_water_activity)),
+            "",
+            "from the centre material's isotherm",
+            Plain,
+        ),
+        e(
+            "evaporation_energy_kj_m2",
+            num(run.evaporation_energy),
+            "kJ/m²",
+            "coupled runs only",
+            Plain,
+        ),
+        e(
+            "energy_balance_error",
+            num(run.energy_balance_error),
+            "",
+            "coupled runs: |convective heat in - (stored + latent + sensible heat of the water \
+             that left)| / the largest term",
+            Small,
+        ),
+        e(
+            "moisture_basis",
+            text(match case.basis {
+                MoistureBasis::Dry => "dry",
+                MoistureBasis::Wet => "wet",
+            }),
+            "",
+            "basis of every moisture %",
+            Plain,
+        ),
+    ]
+}
+
+fn summary_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
+    ws.set_name("summary")?;
+    // A key sheet with a header row: key, value, unit, note.
     ws.set_column_width(0, 34)?;
-    ws.set_column_width(1, 24)?;
-    ws.set_column_width(2, 40)?;
-    let mut row = 0;
-    ws.write_string(row, 0, "title")?;
-    ws.write_string(row, 1, &case.title)?;
-    row += 1;
-    ws.write_string(row, 0, "status")?;
-    ws.write_string(row, 1, status)?;
-    row += 1;
-    for (key, value, unit) in numbers {
-        ws.write_string(row, 0, key)?;
-        let fmt = if key == "mass_balance_error" {
-            &f.small
-        } else {
-            &f.number
-        };
-        opt_number(ws, row, 1, value, fmt)?;
-        if !unit.is_empty() {
-            ws.write_string(row, 2, unit)?;
+    ws.set_column_width(1, 26)?;
+    ws.set_column_width(2, 8)?;
+    ws.set_column_width(3, 38)?;
+    for (c, h) in ["key", "value", "unit", "note"].iter().enumerate() {
+        ws.write_string_with_format(0, c as u16, *h, &f.header)?;
+    }
+    let mut row = 1;
+    for entry in summary_entries(r.case, r.run, r.input_sha256) {
+        ws.write_string(row, 0, entry.key)?;
+        match &entry.value {
+            SummaryValue::Text(t) => {
+                ws.write_string(row, 1, t)?;
+            }
+            SummaryValue::Number(v) => {
+                let fmt = match entry.style {
+                    NumberStyle::Plain => &f.number,
+                    NumberStyle::Hours => &f.hours,
+                    NumberStyle::Small => &f.small,
+                    NumberStyle::Count => &f.count,
+                };
+                ws.write_number_with_format(row, 1, *v, fmt)?;
+            }
+            SummaryValue::Empty => {}
+        }
+        if !entry.unit.is_empty() {
+            ws.write_string(row, 2, entry.unit)?;
+        }
+        if !entry.note.is_empty() {
+            ws.write_string(row, 3, &entry.note)?;
         }
         row += 1;
     }
-    for (key, value) in [
-        ("program_version", PROGRAM_VERSION),
-        ("input_sha256", r.input_sha256),
-    ] {
+    // Warnings and cautions span the value, unit and note columns, wrapped, so that they print
+    // within the page's width.
+    for (key, text) in r
+        .warnings
+        .iter()
+        .map(|w| ("warning", w.as_str()))
+        .chain(CAUTIONS.iter().map(|c| ("caution", *c)))
+    {
         ws.write_string(row, 0, key)?;
-        ws.write_string(row, 1, value)?;
+        ws.merge_range(row, 1, row, 3, text, &f.wrap)?;
+        let lines = (text.chars().count() as f64 / 70.0).ceil().max(1.0);
+        ws.set_row_height(row, 15.0 * lines)?;
         row += 1;
     }
-    for w in r.warnings {
-        ws.write_string(row, 0, "warning")?;
-        ws.write_string_with_format(row, 1, w, &f.wrap)?;
-        row += 1;
-    }
-    for c in CAUTIONS {
-        ws.write_string(row, 0, "caution")?;
-        ws.write_string(row, 1, c)?;
-        row += 1;
-    }
+    summary_charts(ws, r)?;
+    ws.set_landscape();
+    ws.set_paper_size(9);
+    ws.set_print_fit_to_pages(1, 1);
+    ws.set_print_gridlines(false);
     Ok(())
 }
+
+/// Columns of the 1.1 additions on `curves`, after the layer columns.
+pub const CURVE_ADDITIONS: [&str; 5] = [
+    "equilibrium_moisture_pct",
+    "surface_water_activity",
+    "centre_water_activity",
+    "surface_centre_difference_pct",
+    // Beyond the contract (an extension at the end): the air's wet bulb, which a kiln is run
+    // by and a wet surface tends to.
+    "air_wet_bulb_c",
+];
 
 /// The header of the `curves` sheet, in the contract's order.
 pub fn curve_headers(layers: usize) -> Vec<String> {
@@ -259,10 +481,15 @@ pub fn curve_headers(layers: usize) -> Vec<String> {
     .map(|s| s.to_string())
     .collect();
     h.extend((1..=layers).map(|n| format!("layer_{n}_mean_moisture_pct")));
+    h.extend(CURVE_ADDITIONS.iter().map(|s| s.to_string()));
     h
 }
 
-/// One curve row as cells: numbers (None = empty) and the step label.
+/// Column of the step label on `curves`.
+const STEP_COLUMN: usize = 11;
+
+/// One curve row as cells: numbers (None = empty) in header order without the step column,
+/// and the step label.
 fn curve_cells(case: &Case, row: &crate::solver::CurveRow) -> (Vec<Option<f64>>, String) {
     let rate = case.basis.slope_from_dry(row.mean) * row.drying_rate * 3600.0;
     let mut v = vec![
@@ -279,11 +506,30 @@ fn curve_cells(case: &Case, row: &crate::solver::CurveRow) -> (Vec<Option<f64>>,
         row.air_rh.map(|rh| 100.0 * rh),
     ];
     v.extend(row.layer_means.iter().map(|&x| Some(pct(case, x))));
+    v.extend([
+        row.equilibrium.map(|x| pct(case, x)),
+        row.surface_water_activity,
+        row.centre_water_activity,
+        Some((pct(case, row.surface) - pct(case, row.centre)).abs()),
+        row.air_rh.and_then(|rh| {
+            crate::physics::psychro::wet_bulb_from_rh(
+                row.air_temp_c,
+                rh,
+                crate::physics::STANDARD_PRESSURE_PA,
+            )
+        }),
+    ]);
+    let v = v.into_iter().map(|x| x.filter(|x| x.is_finite())).collect();
     let label = case
         .schedule
         .get(row.step)
         .map_or_else(String::new, |s| s.label.clone());
     (v, label)
+}
+
+/// Where the chart helper cells (measured points, target line) start on `curves`.
+fn helper_column(case: &Case) -> u16 {
+    (curve_headers(case.layers.len()).len() + 1) as u16
 }
 
 fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
@@ -296,51 +542,202 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
         let excel_row = i as u32 + 1;
         let (values, label) = curve_cells(case, row);
         for (c, v) in values.iter().enumerate() {
-            // The step label sits in column 11; layer means follow it.
-            let col = if c < 11 { c } else { c + 1 } as u16;
+            let col = if c < STEP_COLUMN { c } else { c + 1 } as u16;
             let fmt = if c == 0 { &f.hours } else { &f.number };
             opt_number(ws, excel_row, col, *v, fmt)?;
         }
-        ws.write_string(excel_row, 11, &label)?;
+        ws.write_string(excel_row, STEP_COLUMN as u16, &label)?;
     }
-    let n = r.run.curves.len() as u32;
-    let mut chart = Chart::new(ChartType::ScatterStraight);
-    for (col, name) in [(1u16, "mean"), (2, "surface"), (3, "centre")] {
-        chart
-            .add_series()
-            .set_name(name)
-            .set_categories(("curves", 1, 0, n, 0))
-            .set_values(("curves", 1, col, n, col));
-    }
+    // Helper cells for the charts, right of the table after an empty column.
+    let base = helper_column(case);
     if !r.measured.is_empty() {
-        // Measured points sit to the right of the table, so the chart can reference them.
-        let base = (headers.len() + 1) as u16;
         ws.write_string_with_format(0, base, "measured_hours", &f.header)?;
         ws.write_string_with_format(0, base + 1, "measured_moisture_pct", &f.header)?;
         for (i, m) in r.measured.iter().enumerate() {
             ws.write_number(i as u32 + 1, base, m.hours)?;
             ws.write_number(i as u32 + 1, base + 1, m.moisture_pct)?;
         }
+    }
+    if let (Some(target), Some(last)) = (case.target_moisture, r.run.last()) {
+        let col = base + 2;
+        ws.write_string_with_format(0, col, "target_line_hours", &f.header)?;
+        ws.write_string_with_format(0, col + 1, "target_line_pct", &f.header)?;
+        for (i, h) in [0.0, last.time / 3600.0].into_iter().enumerate() {
+            ws.write_number(i as u32 + 1, col, h)?;
+            ws.write_number(i as u32 + 1, col + 1, pct(case, target))?;
+        }
+    }
+    ws.set_landscape();
+    print_table(ws)?;
+    Ok(())
+}
+
+/// The drying chart, the surface-centre difference and the profiles, on the summary beside
+/// the key table.
+fn summary_charts(ws: &mut Worksheet, r: &ResultInput<'_>) -> Result<(), XlsxError> {
+    let case = r.case;
+    let run = r.run;
+    let headers = curve_headers(case.layers.len());
+    let col_of = |name: &str| {
+        let c = headers.iter().position(|h| h == name).unwrap_or(0);
+        c as u16
+    };
+    let n = run.curves.len().max(1) as u32;
+    let unit = format!("moisture, % {}", basis_word(case));
+
+    let mut drying = Chart::new(ChartType::ScatterStraight);
+    for (name, label) in [
+        ("mean_moisture_pct", "mean"),
+        ("surface_moisture_pct", "surface"),
+        ("centre_moisture_pct", "centre"),
+    ] {
+        let col = col_of(name);
+        drying
+            .add_series()
+            .set_name(label)
+            .set_categories(("curves", 1, 0, n, 0))
+            .set_values(("curves", 1, col, n, col));
+    }
+    let base = helper_column(case);
+    if !r.measured.is_empty() {
         let m = r.measured.len() as u32;
-        chart
+        drying
             .add_series()
             .set_name("measured")
             .set_categories(("curves", 1, base, m, base))
             .set_values(("curves", 1, base + 1, m, base + 1))
             .set_marker(ChartMarker::new().set_type(ChartMarkerType::Circle))
-            .set_format(rust_xlsxwriter::ChartFormat::new().set_no_line());
+            .set_format(ChartFormat::new().set_no_line());
     }
-    chart
+    if case.target_moisture.is_some() && run.last().is_some() {
+        let col = base + 2;
+        drying
+            .add_series()
+            .set_name("target")
+            .set_categories(("curves", 1, col, 2, col))
+            .set_values(("curves", 1, col + 1, 2, col + 1))
+            .set_format(
+                ChartFormat::new().set_line(
+                    ChartLine::new()
+                        .set_color("#C00000")
+                        .set_dash_type(ChartLineDashType::Dash),
+                ),
+            );
+    }
+    // The air on a secondary axis: dry bulb always, relative humidity where known (a wet
+    // bulb is converted to it).
+    let air_dash = ChartLineDashType::RoundDot;
+    let has_rh = run.curves.iter().any(|c| c.air_rh.is_some());
+    let mut air_series = vec![("air_temp_c", "air dry bulb, °C", "#7F7F7F")];
+    if has_rh {
+        air_series.push(("air_rh_pct", "air RH, %", "#4F81BD"));
+    }
+    for (name, label, colour) in air_series {
+        let col = col_of(name);
+        drying
+            .add_series()
+            .set_name(label)
+            .set_categories(("curves", 1, 0, n, 0))
+            .set_values(("curves", 1, col, n, col))
+            .set_secondary_axis(true)
+            .set_format(
+                ChartFormat::new()
+                    .set_line(ChartLine::new().set_color(colour).set_dash_type(air_dash)),
+            );
+    }
+    drying
         .title()
         .set_name(&chart_text(&format!("Drying curve: {}", case.title)));
-    chart.x_axis().set_name("time, h");
-    chart
+    drying.x_axis().set_name("time, h");
+    drying.y_axis().set_name(&unit);
+    drying.y2_axis().set_name(if has_rh {
+        "air: dry bulb °C, RH %"
+    } else {
+        "air: dry bulb °C"
+    });
+    drying.legend().set_position(ChartLegendPosition::Bottom);
+    drying.set_width(640).set_height(360);
+
+    let mut difference = Chart::new(ChartType::ScatterStraight);
+    let col = col_of("surface_centre_difference_pct");
+    difference
+        .add_series()
+        .set_name("|surface - centre|")
+        .set_categories(("curves", 1, 0, n, 0))
+        .set_values(("curves", 1, col, n, col));
+    difference
+        .title()
+        .set_name("Surface-centre moisture difference");
+    difference.x_axis().set_name("time, h");
+    difference
         .y_axis()
-        .set_name(&format!("moisture, {}", basis_unit(case)));
-    chart.legend().set_position(ChartLegendPosition::Bottom);
-    chart.set_width(720).set_height(420);
-    let chart_col = (headers.len() + 4) as u16;
-    ws.insert_chart(1, chart_col, &chart)?;
+        .set_name(&format!("difference, % {}", basis_word(case)));
+    difference.legend().set_hidden();
+    difference.set_width(640).set_height(300);
+
+    let mut profiles = Chart::new(ChartType::ScatterStraight);
+    let rows = profile_rows(run).len() as u32;
+    for (c, p) in run.profiles.iter().enumerate() {
+        if p.moisture.is_none() {
+            continue;
+        }
+        let col = c as u16 + 1;
+        profiles
+            .add_series()
+            .set_name(&format!("{} h", compact(p.time / 3600.0)))
+            .set_categories(("profiles", 1, 0, rows, 0))
+            .set_values(("profiles", 1, col, rows, col));
+    }
+    profiles.title().set_name("Moisture profiles");
+    profiles.x_axis().set_name("distance from face A, mm");
+    profiles.y_axis().set_name(&unit);
+    profiles.legend().set_position(ChartLegendPosition::Bottom);
+    profiles.set_width(640).set_height(360);
+
+    // Beside the key table (columns A-D), stacked.
+    let col = 5;
+    ws.insert_chart(0, col, &drying)?;
+    ws.insert_chart(19, col, &difference)?;
+    // Every profile time after the run's end: no series, so no chart (the run warns).
+    if run.profiles.iter().any(|p| p.moisture.is_some()) {
+        ws.insert_chart(35, col, &profiles)?;
+    }
+    if has_temperatures(run) {
+        // Product surface and centre against the air's dry and wet bulb.
+        let mut temps = Chart::new(ChartType::ScatterStraight);
+        let has_wet_bulb = run.curves.iter().any(|c| c.air_rh.is_some());
+        let mut series = vec![
+            ("surface_temp_c", "product surface", None),
+            ("centre_temp_c", "product centre", None),
+            ("air_temp_c", "air dry bulb", Some("#7F7F7F")),
+        ];
+        if has_wet_bulb {
+            series.push(("air_wet_bulb_c", "air wet bulb", Some("#4F81BD")));
+        }
+        for (name, label, colour) in series {
+            let c = col_of(name);
+            let s = temps
+                .add_series()
+                .set_name(label)
+                .set_categories(("curves", 1, 0, n, 0))
+                .set_values(("curves", 1, c, n, c));
+            if let Some(colour) = colour {
+                s.set_format(
+                    ChartFormat::new().set_line(
+                        ChartLine::new()
+                            .set_color(colour)
+                            .set_dash_type(ChartLineDashType::RoundDot),
+                    ),
+                );
+            }
+        }
+        temps.title().set_name("Temperatures");
+        temps.x_axis().set_name("time, h");
+        temps.y_axis().set_name("temperature, °C");
+        temps.legend().set_position(ChartLegendPosition::Bottom);
+        temps.set_width(640).set_height(360);
+        ws.insert_chart(54, col, &temps)?;
+    }
     Ok(())
 }
 
@@ -353,9 +750,124 @@ fn chart_text(text: &str) -> String {
     }
 }
 
+fn basis_word(case: &Case) -> &'static str {
+    match case.basis {
+        MoistureBasis::Dry => "dry basis",
+        MoistureBasis::Wet => "wet basis",
+    }
+}
+
+fn steps_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
+    let case = r.case;
+    let ws = wb.add_worksheet();
+    ws.set_name("steps")?;
+    let headers: Vec<String> = STEPS_HEADERS.iter().map(|s| s.to_string()).collect();
+    header_row(ws, 0, &headers, f)?;
+    for (i, s) in r.run.steps.iter().enumerate() {
+        let row = i as u32 + 1;
+        let label = case
+            .schedule
+            .get(s.index)
+            .map_or_else(|| format!("step {}", s.index + 1), |st| st.label.clone());
+        ws.write_string(row, 0, &label)?;
+        ws.write_number_with_format(row, 1, s.start / 3600.0, &f.hours)?;
+        ws.write_number_with_format(row, 2, s.end / 3600.0, &f.hours)?;
+        ws.write_number_with_format(row, 3, (s.end - s.start) / 3600.0, &f.hours)?;
+        ws.write_string(row, 4, s.ended_by.as_str())?;
+        opt_number(ws, row, 5, Some(pct(case, s.mean_at_end)), &f.number)?;
+        opt_number(
+            ws,
+            row,
+            6,
+            s.max_difference_pair
+                .map(|(a, b)| (pct(case, a) - pct(case, b)).abs()),
+            &f.number,
+        )?;
+        opt_number(ws, row, 7, Some(s.air_at_end.dry_bulb_c), &f.number)?;
+        opt_number(ws, row, 8, s.air_at_end.rh.map(|x| 100.0 * x), &f.number)?;
+    }
+    ws.set_landscape();
+    print_table(ws)?;
+    Ok(())
+}
+
+/// The header of the `steps` sheet (format 1.1).
+pub const STEPS_HEADERS: [&str; 9] = [
+    "step",
+    "start_h",
+    "end_h",
+    "hours",
+    "ended_by",
+    "mean_moisture_at_end_pct",
+    "max_surface_centre_difference_pct",
+    "dry_bulb_c",
+    "rh_pct",
+];
+
 /// Profile column headers for the given times (s).
 pub fn profile_header(hours: f64) -> String {
     format!("moisture_pct_at_{}h", compact(hours))
+}
+
+/// One row of `profiles`: position (m), each profile's moisture (dry fraction) there, and in
+/// coupled runs each profile's temperature (degrees C; empty otherwise).
+type ProfileRow = (f64, Vec<Option<f64>>, Vec<Option<f64>>);
+
+/// The header of a profile's temperature column (coupled runs).
+pub fn profile_temp_header(hours: f64) -> String {
+    format!("temp_c_at_{}h", compact(hours))
+}
+
+/// Whether the run solved temperatures (then `profiles` has `temp_c_at_<H>h` columns).
+fn has_temperatures(run: &RunResult) -> bool {
+    run.energy_balance_error.is_some()
+}
+
+/// The rows of `profiles`. An exposed face's surface value is a row of its own: face A at 0,
+/// face B at the thickness.
+fn profile_rows(run: &RunResult) -> Vec<ProfileRow> {
+    let coupled = has_temperatures(run);
+    let mut rows = Vec::with_capacity(run.positions.len() + 2);
+    let face = |pick: fn(&crate::solver::Profile) -> Option<f64>| {
+        run.profiles.iter().map(pick).collect::<Vec<_>>()
+    };
+    let temps = |pick: fn(&crate::solver::Profile) -> Option<f64>| {
+        if coupled { face(pick) } else { Vec::new() }
+    };
+    let any = |v: &[Option<f64>]| v.iter().any(Option::is_some);
+    let a = face(|p| p.face_a);
+    if any(&a) {
+        rows.push((0.0, a, temps(|p| p.face_a_temp)));
+    }
+    for (i, &pos) in run.positions.iter().enumerate() {
+        let at = |v: &Option<Vec<f64>>| v.as_ref().and_then(|m| m.get(i).copied());
+        let values = run.profiles.iter().map(|p| at(&p.moisture)).collect();
+        let t = if coupled {
+            run.profiles.iter().map(|p| at(&p.temperature)).collect()
+        } else {
+            Vec::new()
+        };
+        rows.push((pos, values, t));
+    }
+    let b = face(|p| p.face_b);
+    if any(&b) {
+        rows.push((run.thickness, b, temps(|p| p.face_b_temp)));
+    }
+    rows
+}
+
+/// The header of `profiles`: position, moisture columns, then temperature columns when coupled.
+fn profile_headers(run: &RunResult) -> Vec<String> {
+    let mut headers = vec![String::from("position_mm")];
+    headers.extend(run.profiles.iter().map(|p| profile_header(p.time / 3600.0)));
+    if has_temperatures(run) {
+        headers.extend(
+            run.profiles
+                .iter()
+                .map(|p| profile_temp_header(p.time / 3600.0)),
+        );
+    }
+    headers
 }
 
 fn profiles_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
@@ -363,45 +875,20 @@ fn profiles_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result
     let run = r.run;
     let ws = wb.add_worksheet();
     ws.set_name("profiles")?;
-    let mut headers = vec![String::from("position_mm")];
-    headers.extend(run.profiles.iter().map(|p| profile_header(p.time / 3600.0)));
+    let headers = profile_headers(run);
     header_row(ws, 0, &headers, f)?;
-    for (i, pos) in run.positions.iter().enumerate() {
+    for (i, (pos, values, temps)) in profile_rows(run).iter().enumerate() {
         let row = i as u32 + 1;
         ws.write_number_with_format(row, 0, pos * 1000.0, &f.number)?;
-        for (c, p) in run.profiles.iter().enumerate() {
-            let v = p
-                .moisture
-                .as_ref()
-                .and_then(|m| m.get(i))
-                .map(|&x| pct(case, x));
-            opt_number(ws, row, c as u16 + 1, v, &f.number)?;
+        for (c, v) in values.iter().enumerate() {
+            opt_number(ws, row, c as u16 + 1, v.map(|x| pct(case, x)), &f.number)?;
+        }
+        let first = values.len() as u16 + 1;
+        for (c, v) in temps.iter().enumerate() {
+            opt_number(ws, row, first + c as u16, *v, &f.number)?;
         }
     }
-    let n = run.positions.len() as u32;
-    let mut chart = Chart::new(ChartType::ScatterStraight);
-    for (c, p) in run.profiles.iter().enumerate() {
-        if p.moisture.is_none() {
-            continue;
-        }
-        let col = c as u16 + 1;
-        chart
-            .add_series()
-            .set_name(&format!("{} h", compact(p.time / 3600.0)))
-            .set_categories(("profiles", 1, 0, n, 0))
-            .set_values(("profiles", 1, col, n, col));
-    }
-    chart.title().set_name("Moisture profiles");
-    chart.x_axis().set_name("distance from face A, mm");
-    chart
-        .y_axis()
-        .set_name(&format!("moisture, {}", basis_unit(case)));
-    chart.legend().set_position(ChartLegendPosition::Bottom);
-    chart.set_width(720).set_height(420);
-    // Every profile time after the run's end: no series, so no chart (the run warns).
-    if run.profiles.iter().any(|p| p.moisture.is_some()) {
-        ws.insert_chart(1, headers.len() as u16 + 1, &chart)?;
-    }
+    print_table(ws)?;
     Ok(())
 }
 
@@ -412,6 +899,8 @@ fn check_sheet(
     f: &Formats,
 ) -> Result<(), XlsxError> {
     ws.set_name("check")?;
+    ws.set_landscape();
+    print_table(ws)?;
     let headers: Vec<String> = [
         "hours",
         "model_moisture_ratio",
@@ -475,8 +964,17 @@ fn model_mean_at(case: &Case, run: &RunResult, hours: f64) -> Option<f64> {
 
 /// The `fit` sheet: the parameter table (no parameter is estimated in this version), then the
 /// model against the measured points with goodness-of-fit figures.
+/// Prints a table sheet one page wide, as many pages tall as it needs, header repeated.
+fn print_table(ws: &mut Worksheet) -> Result<(), XlsxError> {
+    ws.set_repeat_rows(0, 0)?;
+    ws.set_paper_size(9);
+    ws.set_print_fit_to_pages(1, 0);
+    Ok(())
+}
+
 fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
     ws.set_name("fit")?;
+    print_table(ws)?;
     let names = |v: &[&str]| v.iter().map(|s| s.to_string()).collect::<Vec<_>>();
     header_row(
         ws,
@@ -555,6 +1053,8 @@ fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(),
 
 fn input_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
     ws.set_name("input")?;
+    ws.set_landscape();
+    print_table(ws)?;
     let headers: Vec<String> = ["quantity", "value", "unit", "source"]
         .iter()
         .map(|s| s.to_string())
@@ -631,9 +1131,12 @@ pub fn curves_csv(case: &Case, run: &RunResult) -> String {
     out.push('\n');
     for row in &run.curves {
         let (values, label) = curve_cells(case, row);
-        let mut fields: Vec<String> = values[..11].iter().map(|v| csv_number(*v)).collect();
+        let mut fields: Vec<String> = values[..STEP_COLUMN]
+            .iter()
+            .map(|v| csv_number(*v))
+            .collect();
         fields.push(csv_field(&label));
-        fields.extend(values[11..].iter().map(|v| csv_number(*v)));
+        fields.extend(values[STEP_COLUMN..].iter().map(|v| csv_number(*v)));
         out.push_str(&fields.join(","));
         out.push('\n');
     }
@@ -642,20 +1145,12 @@ pub fn curves_csv(case: &Case, run: &RunResult) -> String {
 
 /// The `profiles` table as CSV.
 pub fn profiles_csv(case: &Case, run: &RunResult) -> String {
-    let mut headers = vec![String::from("position_mm")];
-    headers.extend(run.profiles.iter().map(|p| profile_header(p.time / 3600.0)));
-    let mut out = headers.join(",");
+    let mut out = profile_headers(run).join(",");
     out.push('\n');
-    for (i, pos) in run.positions.iter().enumerate() {
+    for (pos, values, temps) in profile_rows(run) {
         let mut fields = vec![(pos * 1000.0).to_string()];
-        fields.extend(run.profiles.iter().map(|p| {
-            csv_number(
-                p.moisture
-                    .as_ref()
-                    .and_then(|m| m.get(i))
-                    .map(|&x| pct(case, x)),
-            )
-        }));
+        fields.extend(values.iter().map(|v| csv_number(v.map(|x| pct(case, x)))));
+        fields.extend(temps.iter().map(|v| csv_number(*v)));
         out.push_str(&fields.join(","));
         out.push('\n');
     }

@@ -919,7 +919,9 @@ fn step(t: &Table<'_>, row: &RawRow, i: usize, ctx: &mut Ctx, exposed: Exposed) 
             ctx.record(q("dry_bulb_c"), Number(x), "C", loc.source());
             x
         }
-        Err(Bad) => 20.0,
+        // Not a number: nothing can be compared with it (a wet bulb above 20 C must not be
+        // reported as above the dry bulb), and its own problem is already recorded.
+        Err(Bad) => f64::NAN,
     };
 
     let humidity = humidity(t, row, i, ctx);
