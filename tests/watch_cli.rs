@@ -636,7 +636,10 @@ fn sigkill_mid_run_leaves_only_a_stale_lock_that_the_next_watcher_takes_over() {
     slow_xlsx(&input);
     let lock = dir.join("slow.lock");
     let mut killed = Watcher::start(dir, &["--settle-ms", "200", "--jobs", "1"]);
-    killed.wait_for("the run's lock", PATIENCE, |_| lock.exists());
+    // The lock is created and then filled in: wait until its owner line is there.
+    killed.wait_for("the run's lock", PATIENCE, |_| {
+        fs::read_to_string(&lock).is_ok_and(|held| held.contains("pid="))
+    });
     let pid = killed.pid();
     killed.kill_hard();
 

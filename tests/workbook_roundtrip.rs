@@ -169,14 +169,14 @@ fn a_written_case_solves_and_its_result_follows_the_contract() {
     );
     let rows: Vec<&[Data]> = profiles.rows().skip(1).collect();
     let positions: Vec<f64> = rows.iter().map(|r| num(&r[0])).collect();
-    // 40 cell centres and, both faces being exposed, a row for each face.
-    assert_eq!(positions.len(), 42);
+    // 80 cell centres (40 per exposed half) and, both faces being exposed, a row for each face.
+    assert_eq!(positions.len(), 82);
     assert_eq!(positions[0], 0.0);
-    assert!((positions[41] - 12.0).abs() < 1e-12);
-    assert!(positions[1..41].iter().all(|&p| p > 0.0 && p < 12.0));
+    assert!((positions[81] - 12.0).abs() < 1e-12);
+    assert!(positions[1..81].iter().all(|&p| p > 0.0 && p < 12.0));
     assert!(positions.windows(2).all(|w| w[0] < w[1]));
     // The face rows hold the surface value: the step holds both surfaces at 10 %.
-    for r in [rows[0], rows[41]] {
+    for r in [rows[0], rows[81]] {
         assert!((num(&r[2]) - 10.0).abs() < 1e-12, "{r:?}");
     }
 
@@ -253,7 +253,7 @@ fn solve_writes_csv_tables_and_into_an_out_folder() {
     assert_eq!(curves.lines().count(), 102);
     assert!(curves.lines().next().expect("header").ends_with(
         ",layer_1_mean_moisture_pct,equilibrium_moisture_pct,surface_water_activity,\
-         centre_water_activity,surface_centre_difference_pct"
+         centre_water_activity,surface_centre_difference_pct,air_wet_bulb_c"
     ));
     let profiles = std::fs::read_to_string(results.join("c.profiles.csv")).expect("profiles csv");
     assert!(

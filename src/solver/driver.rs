@@ -492,7 +492,9 @@ impl<'p> Driver<'p> {
         let surface = self.p.surface_value(&surfaces);
         let centre = self.p.centre_value(x);
         let d = (surface - centre).abs();
-        if d > self.max_difference || self.max_pair.is_none() {
+        // Round-off can lift a plateau by an ulp; the time of the largest difference is when
+        // it was first reached.
+        if d > self.max_difference * (1.0 + 1e-9) || self.max_pair.is_none() {
             self.max_difference = d;
             self.max_pair = Some((surface, centre));
             self.time_of_max = Some(self.stepper.time());
