@@ -468,6 +468,22 @@ fn charts_sit_on_the_summary_with_target_air_and_difference_and_pages_fit() {
         "difference chart"
     );
 
+    // The curves print area is the table alone, not the chart helper cells beside it.
+    let last = column_letter(
+        header
+            .iter()
+            .position(|h| h.is_empty())
+            .unwrap_or(header.len())
+            - 1,
+    );
+    assert_eq!(
+        last,
+        column_letter(CURVE_COLUMNS.len() + 2 + CURVE_ADDITIONS.len() - 1)
+    );
+    assert!(
+        parts["xl/workbook.xml"].contains(&format!("curves!$A$1:${last}$")),
+        "print area"
+    );
     // Print setup: the summary with its charts on one landscape page; every other sheet one
     // page wide.
     let summary = &parts["xl/worksheets/sheet1.xml"];
