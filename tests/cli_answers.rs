@@ -3,7 +3,7 @@
 
 mod support;
 
-use support::{books, output_text, run_in, scratch};
+use support::{books, keep_outputs, output_text, run_in, scratch};
 
 fn stdout(out: &std::process::Output) -> String {
     String::from_utf8_lossy(&out.stdout).into_owned()
@@ -48,6 +48,7 @@ fn solve_json_gives_one_object_per_input() {
     std::fs::write(dir.path().join("bad.csv"), "[case]\nend_hours,abc\n").expect("written");
     let out = run_in(dir.path(), &["solve", "--json", "rich.xlsx", "bad.csv"]);
     assert_eq!(out.status.code(), Some(1), "{}", output_text(&out));
+    keep_outputs(dir.path(), "json");
     let text = stdout(&out);
     let objects: Vec<serde_json::Value> = text
         .lines()
