@@ -59,10 +59,11 @@ pub struct JsonReport {
     pub file: String,
     /// `ok`, `target_not_reached`, `problems`, `not_ready` or `failed`.
     pub status: &'static str,
-    /// The summary's keys and values (numbers, text, or null for an empty cell).
-    pub summary: serde_json::Map<String, serde_json::Value>,
+    /// The summary's keys and values (numbers, text, or null for an empty cell), in the
+    /// summary sheet's order.
+    pub summary: Ordered,
     /// The summary's units by key, where a key has one.
-    pub units: serde_json::Map<String, serde_json::Value>,
+    pub units: Ordered,
     /// Warnings shown on the result's summary.
     pub warnings: Vec<String>,
     /// Problems found in the input: sheet, cell, problem.
@@ -71,6 +72,21 @@ pub struct JsonReport {
     pub outputs: Vec<String>,
     /// A short note (the reason for a failure).
     pub detail: String,
+}
+
+/// A JSON object whose keys keep the order they were added in.
+#[derive(Debug, Clone, Default)]
+pub struct Ordered(pub Vec<(String, serde_json::Value)>);
+
+impl serde::Serialize for Ordered {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut map = serializer.serialize_map(Some(self.0.len()))?;
+        for (k, v) in &self.0 {
+            map.serialize_entry(k, v)?;
+        }
+        map.end()
+    }
 }
 
 /// One problem in [`JsonReport`].
@@ -95,8 +111,8 @@ impl FileOutcome {
             Status::NotReady => "not_ready",
             Status::Failed => "failed",
         };
-        let mut summary = serde_json::Map::new();
-        let mut units = serde_json::Map::new();
+        let mut summary = Ordered::default();
+        let mut units = Ordered::default();
         for e in &self.summary {
             let value = match &e.value {
                 write::SummaryValue::Text(t) => Value::from(t.as_str()),
@@ -108,9 +124,9 @@ impl FileOutcome {
                 }
                 write::SummaryValue::Empty => Value::Null,
             };
-            summary.insert(e.key.to_string(), value);
+            summary.0.push((e.key.to_string(), value));
             if !e.unit.is_empty() {
-                units.insert(e.key.to_string(), Value::from(e.unit));
+                units.0.push((e.key.to_string(), Value::from(e.unit)));
             }
         }
         JsonReport {

@@ -3,7 +3,7 @@
 
 mod support;
 
-use support::{books, output_text, run_in, scratch};
+use support::{books, keep_outputs, output_text, run_in, scratch};
 
 fn stdout(out: &std::process::Output) -> String {
     String::from_utf8_lossy(&out.stdout).into_owned()
@@ -48,6 +48,7 @@ fn solve_json_gives_one_object_per_input() {
     std::fs::write(dir.path().join("bad.csv"), "[case]\nend_hours,abc\n").expect("written");
     let out = run_in(dir.path(), &["solve", "--json", "rich.xlsx", "bad.csv"]);
     assert_eq!(out.status.code(), Some(1), "{}", output_text(&out));
+    keep_outputs(dir.path(), "json");
     let text = stdout(&out);
     let objects: Vec<serde_json::Value> = text
         .lines()
@@ -71,6 +72,12 @@ fn solve_json_gives_one_object_per_input() {
         assert!(summary.contains_key(key), "{key}");
     }
     assert_eq!(summary["title"], "rich case");
+    // The keys come in the summary sheet's order, as the text shows them.
+    let line = text.lines().next().expect("line");
+    let line = &line[line.find("\"summary\":").expect("summary")..];
+    let at = |key: &str| line.find(&format!("\"{key}\":")).expect(key);
+    assert!(at("title") < at("status") && at("status") < at("drying_time_h"));
+    assert!(at("input_sha256") < at("target_moisture_pct"));
     assert_eq!(summary["target_moisture_pct"], 15.0);
     assert!(summary["evaporation_energy_kj_m2"].is_null());
     assert!(summary["cells"].is_u64(), "a count is an integer");

@@ -8,92 +8,10 @@ use std::path::Path;
 
 use calamine::{Data, Reader, open_workbook_auto};
 use support::books;
+use support::result::{
+    CURVE_ADDITIONS, CURVE_COLUMNS, STEPS_COLUMNS, SUMMARY_KEYS, num, sheet, text,
+};
 use support::{keep_outputs, output_text, run_in, scratch};
-
-fn sheet(path: &Path, name: &str) -> calamine::Range<Data> {
-    let mut wb = open_workbook_auto(path).expect("result opens");
-    wb.worksheet_range(name).expect("sheet exists")
-}
-
-fn text(d: &Data) -> String {
-    match d {
-        Data::String(s) => s.clone(),
-        Data::Empty => String::new(),
-        other => other.to_string(),
-    }
-}
-
-fn num(d: &Data) -> f64 {
-    match d {
-        Data::Float(f) => *f,
-        Data::Int(i) => *i as f64,
-        other => panic!("expected a number cell, found {other:?}"),
-    }
-}
-
-/// Format page 1.1, sheet `summary`: the keys in order.
-const SUMMARY_KEYS: [&str; 23] = [
-    "title",
-    "status",
-    "drying_time_h",
-    "final_hours",
-    "final_mean_moisture_pct",
-    "final_surface_moisture_pct",
-    "final_centre_moisture_pct",
-    "max_surface_centre_difference_pct",
-    "final_surface_temp_c",
-    "final_centre_temp_c",
-    "water_removed_kg_m2",
-    "mass_balance_error",
-    "cells",
-    "time_steps",
-    "solve_seconds",
-    "program_version",
-    "input_sha256",
-    "target_moisture_pct",
-    "drying_time_days",
-    "time_of_max_difference_h",
-    "final_surface_water_activity",
-    "final_centre_water_activity",
-    "evaporation_energy_kj_m2",
-];
-
-/// Format page 1.1, sheet `curves`: the columns before the layer columns ...
-const CURVE_COLUMNS: [&str; 12] = [
-    "hours",
-    "mean_moisture_pct",
-    "surface_moisture_pct",
-    "centre_moisture_pct",
-    "moisture_ratio",
-    "mean_temp_c",
-    "surface_temp_c",
-    "centre_temp_c",
-    "drying_rate_pct_h",
-    "air_temp_c",
-    "air_rh_pct",
-    "step",
-];
-
-/// ... and after them.
-const CURVE_ADDITIONS: [&str; 4] = [
-    "equilibrium_moisture_pct",
-    "surface_water_activity",
-    "centre_water_activity",
-    "surface_centre_difference_pct",
-];
-
-/// Format page 1.1, sheet `steps`.
-const STEPS_COLUMNS: [&str; 9] = [
-    "step",
-    "start_h",
-    "end_h",
-    "hours",
-    "ended_by",
-    "mean_moisture_at_end_pct",
-    "max_surface_centre_difference_pct",
-    "dry_bulb_c",
-    "rh_pct",
-];
 
 struct Summary {
     rows: Vec<Vec<Data>>,
@@ -343,7 +261,7 @@ fn a_step_whose_trigger_is_already_reached_is_skipped_with_a_warning() {
     assert!(
         warnings
             .iter()
-            .any(|w| w.contains("step 1 (green) was skipped")),
+            .any(|w| w.contains("step 1 (green) was skipped") && w.contains("air dries")),
         "{warnings:?}"
     );
     // The first curve row already shows the step in force.
@@ -354,7 +272,8 @@ fn a_step_whose_trigger_is_already_reached_is_skipped_with_a_warning() {
 
 #[test]
 fn a_conditioning_step_that_wets_towards_its_trigger_is_not_skipped() {
-    // Dry boards at 7 % conditioned in humid air (equilibrium about 15 % at 60 C, 85 %):
+    // Dry boards at 7 % conditioned in humid air (equilibrium about 15 % at 60 C, 85 % RH,
+    // from memory of the Wood Handbook EMC table):
     // the step's air wets, so its until_moisture_pct of 9 % lies ahead and the step runs.
     let dir = scratch();
     let csv = wood_case(
@@ -375,6 +294,28 @@ fn a_conditioning_step_that_wets_towards_its_trigger_is_not_skipped() {
     let warnings = Summary::read(&result).warnings();
     assert!(
         !warnings.iter().any(|w| w.contains("skipped")),
+        "{warnings:?}"
+    );
+
+    // The same air with a level already passed in the direction it moves the product (boards
+    // at 12 % wetted towards about 15 %, from memory as above, until 10 %): that step is
+    // skipped.
+    let csv = wood_case(
+        "passed",
+        12.0,
+        "",
+        "conditioning,100,10,60,85,2e-7\nstorage,,,20,50,2e-7\n",
+    );
+    std::fs::write(dir.path().join("passed.csv"), csv).expect("written");
+    solve(dir.path(), "passed.csv");
+    let result = dir.path().join("passed.result.xlsx");
+    let steps = steps_of(&result);
+    assert_eq!(steps[0].3, "skipped", "{steps:?}");
+    let warnings = Summary::read(&result).warnings();
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.contains("step 1 (conditioning) was skipped") && w.contains("air wets")),
         "{warnings:?}"
     );
 }
@@ -468,6 +409,22 @@ fn charts_sit_on_the_summary_with_target_air_and_difference_and_pages_fit() {
         "difference chart"
     );
 
+    // The curves print area is the table alone, not the chart helper cells beside it.
+    let last = column_letter(
+        header
+            .iter()
+            .position(|h| h.is_empty())
+            .unwrap_or(header.len())
+            - 1,
+    );
+    assert_eq!(
+        last,
+        column_letter(CURVE_COLUMNS.len() + 2 + CURVE_ADDITIONS.len() - 1)
+    );
+    assert!(
+        parts["xl/workbook.xml"].contains(&format!("curves!$A$1:${last}$")),
+        "print area"
+    );
     // Print setup: the summary with its charts on one landscape page; every other sheet one
     // page wide.
     let summary = &parts["xl/worksheets/sheet1.xml"];

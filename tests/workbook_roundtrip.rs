@@ -7,55 +7,8 @@ use std::path::Path;
 
 use calamine::{Data, Reader, open_workbook_auto};
 use support::books::{self, V};
+use support::result::{SUMMARY_KEYS, num, sheet, text};
 use support::{keep_outputs, output_text, run_in, scratch, sha256};
-
-fn sheet(path: &Path, name: &str) -> calamine::Range<Data> {
-    let mut wb = open_workbook_auto(path).expect("result opens");
-    wb.worksheet_range(name).expect("sheet exists")
-}
-
-fn text(d: &Data) -> String {
-    match d {
-        Data::String(s) => s.clone(),
-        Data::Empty => String::new(),
-        other => other.to_string(),
-    }
-}
-
-fn num(d: &Data) -> f64 {
-    match d {
-        Data::Float(f) => *f,
-        Data::Int(i) => *i as f64,
-        other => panic!("expected a number cell, found {other:?}"),
-    }
-}
-
-// The summary keys of the workbook format page, version 1.1, in its order.
-const SUMMARY_KEYS: [&str; 23] = [
-    "title",
-    "status",
-    "drying_time_h",
-    "final_hours",
-    "final_mean_moisture_pct",
-    "final_surface_moisture_pct",
-    "final_centre_moisture_pct",
-    "max_surface_centre_difference_pct",
-    "final_surface_temp_c",
-    "final_centre_temp_c",
-    "water_removed_kg_m2",
-    "mass_balance_error",
-    "cells",
-    "time_steps",
-    "solve_seconds",
-    "program_version",
-    "input_sha256",
-    "target_moisture_pct",
-    "drying_time_days",
-    "time_of_max_difference_h",
-    "final_surface_water_activity",
-    "final_centre_water_activity",
-    "evaporation_energy_kj_m2",
-];
 
 #[test]
 fn a_written_case_solves_and_its_result_follows_the_contract() {

@@ -3,13 +3,14 @@
 
 mod support;
 
-use support::{output_text, run_in, scratch};
+use support::{keep_outputs, output_text, run_in, scratch};
 
 fn warnings_of(csv: &str) -> (String, Vec<String>) {
     let dir = scratch();
     std::fs::write(dir.path().join("c.csv"), csv).expect("written");
     let out = run_in(dir.path(), &["solve", "--json", "c.csv"]);
     assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    keep_outputs(dir.path(), "warnings");
     let v: serde_json::Value =
         serde_json::from_str(String::from_utf8_lossy(&out.stdout).trim()).expect("JSON");
     let warnings = v["warnings"]

@@ -17,6 +17,15 @@ pub const THIN_M: f64 = 0.2e-3;
 /// 0.85, read as 0.85 %).
 pub const LOW_RH: f64 = 0.01;
 
+/// The warning for a temperature that looks like kelvin.
+fn kelvin(column: &str, value: f64) -> String {
+    format!(
+        "{column} is {} °C, above {HOT_C} °C: was a temperature in kelvin typed? \
+         (°C = K - 273.15)",
+        compact(value)
+    )
+}
+
 impl Case {
     /// Values that pass validation but look like a slipped unit, each with its place.
     pub fn plausibility(&self) -> Vec<Problem> {
@@ -26,24 +35,12 @@ impl Case {
         for (i, s) in self.schedule.iter().enumerate() {
             let at = |column| Place::Step { index: i, column };
             if hot(s.dry_bulb_c) {
-                warn(
-                    at("dry_bulb_c"),
-                    format!(
-                        "dry_bulb_c is {} °C, above {HOT_C} °C: was a temperature in kelvin \
-                         typed? (°C = K - 273.15)",
-                        compact(s.dry_bulb_c)
-                    ),
-                );
+                warn(at("dry_bulb_c"), kelvin("dry_bulb_c", s.dry_bulb_c));
             }
             match s.humidity {
-                Humidity::WetBulb(tw) if hot(tw) => warn(
-                    at("wet_bulb_c"),
-                    format!(
-                        "wet_bulb_c is {} °C, above {HOT_C} °C: was a temperature in kelvin \
-                         typed? (°C = K - 273.15)",
-                        compact(tw)
-                    ),
-                ),
+                Humidity::WetBulb(tw) if hot(tw) => {
+                    warn(at("wet_bulb_c"), kelvin("wet_bulb_c", tw))
+                }
                 Humidity::Relative(rh) if rh > 0.0 && rh < LOW_RH => warn(
                     at("rh_pct"),
                     format!(
@@ -92,11 +89,7 @@ impl Case {
             if hot(layer.initial_temp_c) {
                 warn(
                     at("initial_temp_c"),
-                    format!(
-                        "initial_temp_c is {} °C, above {HOT_C} °C: was a temperature in kelvin \
-                         typed? (°C = K - 273.15)",
-                        compact(layer.initial_temp_c)
-                    ),
+                    kelvin("initial_temp_c", layer.initial_temp_c),
                 );
             }
         }
@@ -108,11 +101,7 @@ impl Case {
                         index: i,
                         column: "d_ref_temp_c",
                     },
-                    format!(
-                        "d_ref_temp_c is {} °C, above {HOT_C} °C: was a temperature in kelvin \
-                         typed? (°C = K - 273.15)",
-                        compact(t)
-                    ),
+                    kelvin("d_ref_temp_c", t),
                 );
             }
         }

@@ -290,32 +290,33 @@ impl<'p> Driver<'p> {
     /// Whether the step in force began with its `until_moisture` already reached, judged from
     /// its own air: a step whose air dries the body (mean above the equilibrium it drives
     /// towards) has reached a level at or above the mean; one whose air wets it, a level at
-    /// or below. Returns whether the air dries.
-    fn already_reached(&self) -> Option<bool> {
+    /// or below. Returns why, as the end of the warning's sentence.
+    fn already_reached(&self) -> Option<&'static str> {
         let (index, _) = self.stepper.schedule_step();
         let step = self.p.steps.get(index)?;
         let level = step.until_moisture?;
         let mean = self.p.mean(self.stepper.moisture());
         if mean == level {
-            return Some(true);
+            return Some("the mean stood exactly at it");
         }
         let eq = self
             .p
             .equilibrium_mean(step, step.to)
             .filter(|x| x.is_finite())
             .or_else(|| surface_equilibrium(self.p, step, step.to))?;
-        if eq == mean {
-            return None;
+        if mean > eq && mean <= level {
+            Some("the step's air dries the product and the mean was already at or below it")
+        } else if mean < eq && mean >= level {
+            Some("the step's air wets the product and the mean was already at or above it")
+        } else {
+            None
         }
-        let dries = mean > eq;
-        let reached = if dries { mean <= level } else { mean >= level };
-        reached.then_some(dries)
     }
 
     /// Starts the step now in force: skips it (with a warning) when its trigger is already
     /// reached, and resets the within-step figures otherwise.
     fn enter_step(&mut self) {
-        if let Some(dries) = self.already_reached() {
+        if let Some(why) = self.already_reached() {
             let (index, _) = self.stepper.schedule_step();
             let t = self.stepper.time();
             let step = &self.p.steps[index];
@@ -329,12 +330,11 @@ impl<'p> Driver<'p> {
                 air_at_end: step.to,
             });
             self.warnings.push(format!(
-                "step {} ({}) was skipped: when it began at {:.3} h the mean moisture had \
-                 already reached its until_moisture_pct, and its air {} the product",
+                "step {} ({}) was skipped: when it began at {:.3} h its until_moisture_pct was \
+                 already reached ({why})",
                 index + 1,
                 step.label,
                 t / 3600.0,
-                if dries { "dries" } else { "wets" }
             ));
             self.advance_schedule();
             return;

@@ -65,16 +65,22 @@ struct Formats {
     small: Format,
     count: Format,
     wrap: Format,
+    top: Format,
 }
 
 impl Formats {
     fn new() -> Formats {
         Formats {
-            header: Format::new().set_bold().set_align(FormatAlign::Center),
+            header: Format::new()
+                .set_bold()
+                .set_text_wrap()
+                .set_align(FormatAlign::Center)
+                .set_align(FormatAlign::VerticalCenter),
             number: Format::new().set_num_format("0.000"),
             hours: Format::new().set_num_format("0.00"),
             small: Format::new().set_num_format("0.000E+00"),
             count: Format::new().set_num_format("0"),
+            top: Format::new().set_align(FormatAlign::Top),
             wrap: Format::new()
                 .set_text_wrap()
                 .set_align(FormatAlign::Top)
@@ -89,9 +95,13 @@ fn header_row(
     names: &[String],
     f: &Formats,
 ) -> Result<(), XlsxError> {
+    // Long names wrap in a three-line header, so that tables print legibly one page wide.
     for (c, name) in names.iter().enumerate() {
         ws.write_string_with_format(row, c as u16, name, &f.header)?;
-        ws.set_column_width(c as u16, (name.len() as f64 + 2.0).clamp(10.0, 34.0))?;
+        ws.set_column_width(c as u16, (name.len() as f64 + 2.0).clamp(10.0, 15.0))?;
+    }
+    if names.iter().any(|n| n.len() > 13) {
+        ws.set_row_height(row, 45)?;
     }
     ws.set_freeze_panes(row + 1, 0)?;
     Ok(())
@@ -436,9 +446,9 @@ fn summary_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result
         .map(|w| ("warning", w.as_str()))
         .chain(CAUTIONS.iter().map(|c| ("caution", *c)))
     {
-        ws.write_string(row, 0, key)?;
+        ws.write_string_with_format(row, 0, key, &f.top)?;
         ws.merge_range(row, 1, row, 3, text, &f.wrap)?;
-        let lines = (text.chars().count() as f64 / 70.0).ceil().max(1.0);
+        let lines = (text.chars().count() as f64 / 85.0).ceil().max(1.0);
         ws.set_row_height(row, 15.0 * lines)?;
         row += 1;
     }
@@ -567,6 +577,9 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
             ws.write_number(i as u32 + 1, col + 1, pct(case, target))?;
         }
     }
+    // Print the table only, not the chart helper cells beside it.
+    let rows = r.run.curves.len() as u32;
+    ws.set_print_area(0, 0, rows, headers.len() as u16 - 1)?;
     ws.set_landscape();
     print_table(ws)?;
     Ok(())
@@ -694,13 +707,14 @@ fn summary_charts(ws: &mut Worksheet, r: &ResultInput<'_>) -> Result<(), XlsxErr
     profiles.legend().set_position(ChartLegendPosition::Bottom);
     profiles.set_width(640).set_height(360);
 
-    // Beside the key table (columns A-D), stacked.
+    // Beside the key table (columns A-D), stacked at fixed offsets from the top so that tall
+    // warning rows do not pull them apart.
     let col = 5;
-    ws.insert_chart(0, col, &drying)?;
-    ws.insert_chart(19, col, &difference)?;
+    ws.insert_chart_with_offset(0, col, &drying, 0, 0)?;
+    ws.insert_chart_with_offset(0, col, &difference, 0, 370)?;
     // Every profile time after the run's end: no series, so no chart (the run warns).
     if run.profiles.iter().any(|p| p.moisture.is_some()) {
-        ws.insert_chart(35, col, &profiles)?;
+        ws.insert_chart_with_offset(0, col, &profiles, 0, 680)?;
     }
     if has_temperatures(run) {
         // Product surface and centre against the air's dry and wet bulb.
@@ -736,7 +750,7 @@ fn summary_charts(ws: &mut Worksheet, r: &ResultInput<'_>) -> Result<(), XlsxErr
         temps.y_axis().set_name("temperature, °C");
         temps.legend().set_position(ChartLegendPosition::Bottom);
         temps.set_width(640).set_height(360);
-        ws.insert_chart(54, col, &temps)?;
+        ws.insert_chart_with_offset(0, col, &temps, 0, 1050)?;
     }
     Ok(())
 }

@@ -3,6 +3,7 @@
 #![allow(dead_code)]
 
 pub mod books;
+pub mod result;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
