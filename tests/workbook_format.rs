@@ -419,7 +419,8 @@ fn charts_sit_on_the_summary_with_target_air_and_difference_and_pages_fit() {
     );
     assert_eq!(
         last,
-        column_letter(CURVE_COLUMNS.len() + 2 + CURVE_ADDITIONS.len() - 1)
+        // The contract's columns, two layers, and one extension at the end (air_wet_bulb_c).
+        column_letter(CURVE_COLUMNS.len() + 2 + CURVE_ADDITIONS.len())
     );
     assert!(
         parts["xl/workbook.xml"].contains(&format!("curves!$A$1:${last}$")),
