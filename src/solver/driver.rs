@@ -204,6 +204,8 @@ struct Driver<'p> {
     initial_mean: f64,
     initial_water: f64,
     initial_energy: f64,
+    /// An interpolated (or copied) state for output rows and profiles.
+    scratch: super::state::State,
     max_difference: f64,
     max_pair: Option<(f64, f64)>,
     drying_time: Option<f64>,
@@ -254,6 +256,7 @@ impl<'p> Driver<'p> {
             initial_mean,
             initial_water: p.water(&p.initial),
             initial_energy,
+            scratch: super::state::State::default(),
             max_difference: 0.0,
             max_pair: None,
             drying_time: None,
@@ -399,18 +402,17 @@ impl<'p> Driver<'p> {
                     seconds,
                 });
             }
+            // Steps land only on the end, schedule changes and triggers; output rows and
+            // profiles between steps come from the stepper's dense output.
             let mut stop = end;
             if let Some(t) = self.step_end() {
                 stop = stop.min(t);
-            }
-            stop = stop.min(self.output_time(self.next_output));
-            if let Some(profile) = self.p.profile_times.get(self.next_profile) {
-                stop = stop.min(*profile);
             }
             self.stepper.set_stop_time(stop);
             let reason = self.stepper.step()?;
             self.track_difference();
             let t = self.stepper.time();
+            self.emit_before(t);
             if let Some(progress) = control.progress
                 && t - last_progress > 1e-3 * end
             {
@@ -505,11 +507,41 @@ impl<'p> Driver<'p> {
         }
     }
 
+    /// Output rows and profiles whose times fall inside the last step (before its end),
+    /// from the interpolated state.
+    fn emit_before(&mut self, t: f64) {
+        loop {
+            let at = self.output_time(self.next_output);
+            if at >= t || same_time(at, t) {
+                break;
+            }
+            self.stepper.interpolate_into(at, &mut self.scratch);
+            self.record_scratch_row(at);
+            self.next_output += 1;
+        }
+        while let Some(&at) = self.p.profile_times.get(self.next_profile) {
+            if at >= t || same_time(at, t) {
+                break;
+            }
+            self.stepper.interpolate_into(at, &mut self.scratch);
+            let profile = self.scratch_profile(at);
+            self.profiles.push(profile);
+            self.next_profile += 1;
+        }
+    }
+
+    /// A row of the current state.
     fn record_row(&mut self) {
         let t = self.stepper.time();
-        let surfaces = self.stepper.surfaces();
+        self.scratch.clone_from(self.stepper.state());
+        self.record_scratch_row(t);
+    }
+
+    /// A row of the state in `scratch` at time `t` (within the schedule step in force).
+    fn record_scratch_row(&mut self, t: f64) {
+        let surfaces = self.stepper.surfaces_at(&self.scratch, t);
         let p = self.p;
-        let x = self.stepper.moisture();
+        let x = &self.scratch.moisture;
         let mean = p.mean(x);
         let surface = p.surface_value(&surfaces);
         let air = self.stepper.air_at(t);
@@ -533,7 +565,7 @@ impl<'p> Driver<'p> {
                 w / m
             })
             .collect();
-        let temps = &self.stepper.state().temperature;
+        let temps = &self.scratch.temperature;
         let (mean_temp_c, surface_temp_c, centre_temp_c) = if temps.is_empty() {
             (air.dry_bulb_c, air.dry_bulb_c, air.dry_bulb_c)
         } else {
@@ -584,20 +616,20 @@ impl<'p> Driver<'p> {
         self.curves.push(row);
     }
 
-    /// Cell temperatures in coupled runs.
-    fn temperatures(&self) -> Option<Vec<f64>> {
-        let t = &self.stepper.state().temperature;
-        (!t.is_empty()).then(|| t.clone())
-    }
-
     /// A profile of the current state at time `time`, with the exposed faces' surface values.
     fn profile_now(&mut self, time: f64) -> Profile {
-        let surfaces = self.stepper.surfaces();
+        self.scratch.clone_from(self.stepper.state());
+        self.scratch_profile(time)
+    }
+
+    /// A profile of the state in `scratch` at time `time`.
+    fn scratch_profile(&mut self, time: f64) -> Profile {
+        let surfaces = self.stepper.surfaces_at(&self.scratch, time);
         let coupled = self.p.thermal.is_some();
         Profile {
             time,
-            moisture: Some(self.stepper.moisture().to_vec()),
-            temperature: self.temperatures(),
+            moisture: Some(self.scratch.moisture.clone()),
+            temperature: coupled.then(|| self.scratch.temperature.clone()),
             face_a: self.p.face_a.map(|_| surfaces.x_a),
             face_b: self.p.face_b.map(|_| surfaces.x_b),
             face_a_temp: self.p.face_a.filter(|_| coupled).map(|_| surfaces.t_a),

@@ -185,6 +185,8 @@ pub struct Stepper<'p> {
     stats: Stats,
     exchanged: Exchanged,
     newton_cap: f64,
+    prev: State,
+    prev_t: f64,
 }
 
 impl<'p> Stepper<'p> {
@@ -218,6 +220,8 @@ impl<'p> Stepper<'p> {
             controller: Controller::default(),
             stats: Stats::default(),
             exchanged: Exchanged::default(),
+            prev: State::zeros(n, coupled),
+            prev_t: 0.0,
             newton_cap: f64::INFINITY,
         };
         s.restart_step_size();
@@ -294,17 +298,26 @@ impl<'p> Stepper<'p> {
 
     /// Surface figures at the current state (fills the workspace's face arrays).
     pub fn surfaces(&mut self) -> Surfaces {
-        let (laws, t_c) = self.laws_at(self.t);
-        let faces = self.heat_faces(&laws, self.t);
+        let x = std::mem::take(&mut self.x);
+        let s = self.surfaces_at(&x, self.t);
+        self.x = x;
+        s
+    }
+
+    /// Surface figures of `state` at time `t` within the schedule step in force (for
+    /// interpolated states; fills the workspace's face arrays).
+    pub fn surfaces_at(&mut self, state: &State, t: f64) -> Surfaces {
+        let (laws, t_c) = self.laws_at(t);
+        let faces = self.heat_faces(&laws, t);
         match (&self.problem.thermal, &mut self.coupled_ws) {
             (Some(thermal), Some(cws)) => {
-                let c = coupled::evaluate_faces(self.problem, thermal, &faces, &self.x, cws);
-                let n = self.x.moisture.len();
+                let c = coupled::evaluate_faces(self.problem, thermal, &faces, state, cws);
+                let n = state.moisture.len();
                 let mut s = Surfaces {
-                    x_a: self.x.moisture[0],
-                    x_b: self.x.moisture[n - 1],
-                    t_a: self.x.temperature[0],
-                    t_b: self.x.temperature[n - 1],
+                    x_a: state.moisture[0],
+                    x_b: state.moisture[n - 1],
+                    t_a: state.temperature[0],
+                    t_b: state.temperature[n - 1],
                     ..Surfaces::default()
                 };
                 if let Some(f) = c.a {
@@ -315,7 +328,48 @@ impl<'p> Stepper<'p> {
                 }
                 s
             }
-            _ => flux::evaluate_faces(self.problem, &laws, t_c, &self.x.moisture, &mut self.ws),
+            _ => flux::evaluate_faces(self.problem, &laws, t_c, &state.moisture, &mut self.ws),
+        }
+    }
+
+    /// The state at time `t` within the last accepted step, written into `out` (dense output,
+    /// so that output times never force a step). The quadratic through the step's start, its
+    /// half-step solution and its end: the half step carries the same backward-Euler error the
+    /// step control bounds, so the interpolant is as accurate as the tolerance asks. Outside the
+    /// last step, the nearest end.
+    pub fn interpolate_into(&self, t: f64, out: &mut State) {
+        let dt = self.t - self.prev_t;
+        if dt <= 0.0 || dt.is_nan() || t >= self.t {
+            out.clone_from(&self.x);
+            return;
+        }
+        if t <= self.prev_t {
+            out.clone_from(&self.prev);
+            return;
+        }
+        let s = (t - self.prev_t) / dt;
+        let (l0, l1, l2) = (
+            2.0 * (s - 0.5) * (s - 1.0),
+            -4.0 * s * (s - 1.0),
+            2.0 * s * (s - 0.5),
+        );
+        out.clone_from(&self.x);
+        let half = &self.trial.half;
+        for ((o, a), b) in out
+            .moisture
+            .iter_mut()
+            .zip(&self.prev.moisture)
+            .zip(&half.moisture)
+        {
+            *o = l0 * a + l1 * b + l2 * *o;
+        }
+        for ((o, a), b) in out
+            .temperature
+            .iter_mut()
+            .zip(&self.prev.temperature)
+            .zip(&half.temperature)
+        {
+            *o = l0 * a + l1 * b + l2 * *o;
         }
     }
 
@@ -478,6 +532,9 @@ impl<'p> Stepper<'p> {
     }
 
     fn accept(&mut self, dt: f64, exchanged: Exchanged) {
+        // The start of the step, kept with the trial's half step for dense output.
+        self.prev.clone_from(&self.x);
+        self.prev_t = self.t;
         std::mem::swap(&mut self.x, &mut self.trial.candidate);
         self.t += dt;
         self.exchanged = self.exchanged.plus(exchanged);
