@@ -128,10 +128,20 @@ pub enum Outcome {
     Problems,
 }
 
+/// The longest time any option takes, s (about 31 years): larger values would overflow the
+/// clock arithmetic.
+const MAX_OPTION_SECS: f64 = 1e9;
+
 fn secs(v: f64, what: &str) -> anyhow::Result<Duration> {
+    if !(0.0..=MAX_OPTION_SECS).contains(&v) {
+        bail!("{what} must be a number of seconds from 0 to {MAX_OPTION_SECS:e}, found {v}");
+    }
     Duration::try_from_secs_f64(v)
         .with_context(|| format!("{what} must be a number of seconds >= 0"))
 }
+
+/// The shortest polling interval, s: below it polling would keep a core busy.
+const MIN_POLL_SECS: f64 = 0.1;
 
 fn jobs(j: Option<usize>) -> usize {
     j.unwrap_or(0)
@@ -169,6 +179,11 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             let mut opts = WatchOptions::new(dir);
             opts.jobs = jobs(j);
             opts.settle = Duration::from_millis(settle_ms);
+            if let Some(p) = poll
+                && p < MIN_POLL_SECS
+            {
+                bail!("--poll must be at least {MIN_POLL_SECS} s, found {p}");
+            }
             opts.poll = poll.map(|p| secs(p, "--poll")).transpose()?;
             opts.recursive = recursive;
             opts.rescan = secs(rescan_secs, "--rescan-secs")?;
@@ -197,13 +212,17 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.progress = io::stderr().is_terminal();
             let summary = watch::batch(&opts, Arc::new(pipeline(case_seconds)?))?;
             print(&summary.to_string())?;
-            let interrupted = summary
-                .skipped
-                .iter()
-                .filter(|s| s.reason == watch::SkipReason::Interrupted)
-                .count();
-            if interrupted > 0 {
-                bail!("the pass was interrupted by a signal; {interrupted} input(s) were not run");
+            if summary.interrupted {
+                let n = summary.not_run();
+                bail!("the pass was interrupted by a signal; {n} input(s) were not run");
+            }
+            let locked = summary.locked();
+            if locked > 0 {
+                // Not every input ran: another runner holds them. Exit 2, as for a stop.
+                bail!(
+                    "{locked} input(s) were locked by another runner and not run by this pass; \
+                     run the pass again once that runner has finished"
+                );
             }
             Ok(if summary.any_problems() {
                 Outcome::Problems

@@ -22,6 +22,21 @@ fn main() -> ExitCode {
         return ExitCode::from(u8::try_from(code).unwrap_or(2));
     }
     cli::init_logging(cli.log_json);
+    // A panic inside one input's run is caught and reported for that input; the default hook
+    // would also print "thread ... panicked" and a backtrace hint. One log line is enough.
+    std::panic::set_hook(Box::new(|info| {
+        let place = info
+            .location()
+            .map(|l| format!(" at {}:{}", l.file(), l.line()))
+            .unwrap_or_default();
+        let message = info
+            .payload()
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| info.payload().downcast_ref::<String>().cloned())
+            .unwrap_or_else(|| String::from("no message"));
+        tracing::error!("internal error{place}: {message}");
+    }));
     match cli::run(cli) {
         Ok(Outcome::Ok) => ExitCode::SUCCESS,
         Ok(Outcome::Problems) => ExitCode::from(1),

@@ -364,6 +364,7 @@ fn the_closing_table_lists_file_status_drying_time_and_seconds() {
         ],
         skipped: Vec::new(),
         up_to_date: 2,
+        interrupted: false,
     };
     let expected = "\
 file             status    drying time h  seconds

@@ -888,3 +888,71 @@ fn batch_exits_1_when_an_input_has_problems_and_0_otherwise_with_a_closing_table
     assert!(leftovers(dir).is_empty(), "{:?}", leftovers(dir));
     keep_outputs(dir, "watch_cli_batch_exit");
 }
+
+#[test]
+fn batch_exits_2_when_interrupted_even_with_one_input_and_when_inputs_are_locked() {
+    // Before: SIGINT of a one-input pass exited 1 (its cancelled run counted as a problem),
+    // and inputs skipped for another runner's lock gave 0.
+    let folder = scratch();
+    let dir = folder.path();
+    very_slow_xlsx(&dir.join("slow.xlsx"));
+    let child = start_batch(dir, &[]);
+    let lock = dir.join("slow.lock");
+    let started = Instant::now();
+    while !lock.exists() && started.elapsed() < PATIENCE {
+        std::thread::sleep(POLL);
+    }
+    assert!(lock.exists(), "the run never started");
+    let status = std::process::Command::new("kill")
+        .args(["-INT", &child.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(status.success());
+    let out = child.wait_with_output().expect("batch ends");
+    let shown = output_text(&out);
+    assert_eq!(out.status.code(), Some(2), "{shown}");
+    assert!(shown.contains("1 input(s) were not run"), "{shown}");
+    assert!(leftovers(dir).is_empty(), "{:?}", leftovers(dir));
+
+    // A fresh lock of a live process (this test) on this host: the input is not run.
+    let host = fs::read_to_string("/proc/sys/kernel/hostname").unwrap();
+    let now = SystemTime::now()
+        .duration_since(SystemTime::UNIX_EPOCH)
+        .unwrap()
+        .as_secs();
+    fs::write(
+        &lock,
+        format!(
+            "host={}\npid={}\nstarted={now}\ntoken=other\n",
+            host.trim(),
+            std::process::id()
+        ),
+    )
+    .unwrap();
+    let out = start_batch(dir, &[])
+        .wait_with_output()
+        .expect("batch ends");
+    let shown = output_text(&out);
+    assert_eq!(out.status.code(), Some(2), "{shown}");
+    assert!(shown.contains("locked by another runner"), "{shown}");
+    assert!(!dir.join("slow.result.xlsx").exists());
+}
+
+#[test]
+fn out_of_range_times_are_usage_errors_not_panics() {
+    // Before: --grace-secs 1.8e19 panicked, --poll 0 kept a core busy.
+    let folder = scratch();
+    let dir = folder.path().to_str().unwrap();
+    for args in [
+        vec!["watch", dir, "--grace-secs", "1.8e19"],
+        vec!["watch", dir, "--poll", "0"],
+        vec!["batch", dir, "--stale-lock-secs", "1e300"],
+        vec!["solve", "x.csv", "--case-seconds", "-1"],
+    ] {
+        let out = run_in(folder.path(), &args);
+        let shown = output_text(&out);
+        assert_eq!(out.status.code(), Some(2), "{args:?}: {shown}");
+        assert!(!shown.contains("panicked"), "{args:?}: {shown}");
+        assert!(shown.contains("--"), "{args:?}: {shown}");
+    }
+}

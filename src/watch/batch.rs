@@ -67,9 +67,38 @@ pub struct BatchSummary {
     pub skipped: Vec<Skipped>,
     /// Inputs of this shard that were already up to date (and not forced).
     pub up_to_date: usize,
+    /// The pass was stopped (SIGINT/SIGTERM or the stop flag) before it finished.
+    pub interrupted: bool,
 }
 
 impl BatchSummary {
+    /// Inputs this pass did not run because another runner held their lock.
+    pub fn locked(&self) -> usize {
+        self.skipped
+            .iter()
+            .filter(|s| matches!(s.reason, SkipReason::Locked(_)))
+            .count()
+    }
+
+    /// Inputs the pass did not finish because it was interrupted: those not started and
+    /// those whose run was cancelled.
+    pub fn not_run(&self) -> usize {
+        let skipped = self
+            .skipped
+            .iter()
+            .filter(|s| s.reason == SkipReason::Interrupted)
+            .count();
+        let cancelled = if self.interrupted {
+            self.rows
+                .iter()
+                .filter(|r| r.status == Status::Failed)
+                .count()
+        } else {
+            0
+        };
+        skipped + cancelled
+    }
+
     /// Whether any input had problems or failed (the command then exits with 1).
     pub fn any_problems(&self) -> bool {
         self.rows.iter().any(|r| {
@@ -251,6 +280,7 @@ pub fn batch_until(
             Err(skipped) => summary.skipped.push(skipped),
         }
     }
+    summary.interrupted = stop.load(Ordering::SeqCst);
     summary.rows.sort_by(|a, b| a.file.cmp(&b.file));
     summary.skipped.sort_by(|a, b| a.file.cmp(&b.file));
     Ok(summary)
