@@ -18,7 +18,7 @@ use indicatif::{ProgressBar, ProgressStyle};
 use super::daemon::check_dir;
 use super::filter::scan;
 use super::job::{Context, Outcome};
-use super::lock::LockOwner;
+use super::lock::{LockOwner, remove_old_leftovers};
 use super::settle::{Snapshot, next_attempt, sleep_unless, wait_settled};
 use super::{Attempt, BatchOptions, Processor, Report, Status, WatchError, is_stale, worker_count};
 
@@ -224,6 +224,7 @@ pub fn batch_until(
 ) -> Result<BatchSummary, WatchError> {
     let shard = opts.shard.map(|s| s.check()).transpose()?;
     let root = check_dir(&opts.dir)?;
+    remove_old_leftovers(&root, opts.recursive, opts.stale_lock);
     let mut inputs = scan(&root, opts.recursive).map_err(|source| WatchError::Scan {
         dir: root.clone(),
         source,

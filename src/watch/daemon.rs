@@ -22,7 +22,7 @@ use std::time::{Duration, Instant};
 use super::events::{self, SourceConfig, WatchEvent};
 use super::filter::{dir_in_scope, in_scope, scan};
 use super::job::{Context, Done, Outcome};
-use super::lock::{LockOwner, release_for};
+use super::lock::{LockOwner, release_for, remove_old_leftovers};
 use super::settle::{self, Ready, Settler, Snapshot, next_attempt};
 use super::{Attempt, Processor, Status, WatchError, WatchOptions, is_stale, worker_count};
 
@@ -84,6 +84,7 @@ fn run(
         &tx,
         &stop,
     )?;
+    remove_old_leftovers(&root, opts.recursive, opts.stale_lock);
     let initial = scan(&root, opts.recursive).map_err(|source| WatchError::Scan {
         dir: root.clone(),
         source,
@@ -344,7 +345,7 @@ impl Coordinator<'_> {
                 }
             }
             Outcome::Busy(who) => {
-                tracing::debug!(file = %file.display(), owner = %who, "locked by another runner; skipped");
+                tracing::info!(file = %file.display(), owner = %who, "locked by another runner; skipped");
             }
             Outcome::UpToDate => {
                 tracing::debug!(file = %file.display(), "already up to date after locking; skipped");
