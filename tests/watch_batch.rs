@@ -500,3 +500,37 @@ fn links_out_of_the_folder_are_neither_read_nor_answered_beside() {
     assert_eq!(files, ["alias.csv", "own.csv"], "{summary:?}");
     assert_eq!(outside.names(), ["far.csv"]);
 }
+
+#[test]
+fn inputs_sharing_a_stem_are_named_and_only_the_newest_is_run() {
+    // Before: kiln.csv, kiln.xlsx and kiln.ods shared one result and lock; one was answered
+    // and the others silently not.
+    let dir = Scratch::new();
+    dir.write("kiln.csv", "x");
+    dir.write("kiln.xlsx", "x");
+    dir.write("kiln.ods", "x");
+    dir.set_mtime("kiln.csv", -100);
+    dir.set_mtime("kiln.ods", -200);
+    dir.set_mtime("kiln.xlsx", -10);
+    let fake = Fake::solving();
+    let summary = run(&quick_batch(dir.path()), &fake);
+    let files: Vec<String> = fake.calls().into_iter().map(|c| c.file).collect();
+    assert_eq!(files, ["kiln.xlsx"]);
+    let clashes: Vec<(String, String)> = summary
+        .skipped
+        .iter()
+        .map(|s| (s.file.display().to_string(), s.reason.to_string()))
+        .collect();
+    assert_eq!(clashes.len(), 2, "{clashes:?}");
+    assert!(
+        clashes
+            .iter()
+            .all(|(_, why)| why.contains("shares its result name with kiln.xlsx")),
+        "{clashes:?}"
+    );
+    assert!(summary.any_problems());
+    assert!(
+        summary.to_string().contains("skipped kiln.csv"),
+        "{summary}"
+    );
+}
