@@ -369,3 +369,14 @@ fn settings_that_multiply_into_a_huge_result_are_refused_at_their_cells() {
     let lines = refused(dir.path(), "profiles.csv", "list fewer profile_hours");
     assert!(lines.iter().any(|l| l.starts_with("case|B7|")), "{lines:?}");
 }
+
+#[test]
+fn a_huge_number_is_named_as_too_large_not_as_inf() {
+    // Before: end_hours 1e308 (3.6e311 s) was reported as "found inf".
+    let dir = scratch();
+    let mut case = series_case("huge");
+    case[0].1[3][1] = V::N(1e308);
+    write_csv(&dir.path().join("huge.csv"), &case);
+    let lines = refused(dir.path(), "huge.csv", "too large to use");
+    assert!(lines.iter().all(|l| !l.contains("inf")), "{lines:?}");
+}

@@ -69,6 +69,16 @@ impl fmt::Display for Problem {
 /// The most cells a case may ask for: beyond this a 1-D run gains nothing and memory grows.
 pub const MAX_TOTAL_CELLS: usize = crate::limits::MAX_TOTAL_CELLS;
 
+/// A value for a message: an infinity here comes from a huge number (such as 1e308) that
+/// overflowed when its unit was converted, so say that rather than "inf".
+fn shown(value: f64) -> String {
+    if value.is_infinite() {
+        String::from("a number too large to use (it overflows when converted to SI units)")
+    } else {
+        value.to_string()
+    }
+}
+
 struct Checker {
     problems: Vec<Problem>,
 }
@@ -84,6 +94,7 @@ impl Checker {
     /// Requires `value` finite and > 0.
     fn positive(&mut self, place: Place, what: &str, value: f64) {
         if !value.is_finite() || value <= 0.0 {
+            let value = shown(value);
             self.push(place, format!("{what} must be a number > 0, found {value}"));
         }
     }
@@ -91,6 +102,7 @@ impl Checker {
     /// Requires `value` finite and >= 0.
     fn non_negative(&mut self, place: Place, what: &str, value: f64) {
         if !value.is_finite() || value < 0.0 {
+            let value = shown(value);
             self.push(
                 place,
                 format!("{what} must be a number >= 0, found {value}"),
@@ -112,6 +124,7 @@ impl Checker {
 
     fn finite(&mut self, place: Place, what: &str, value: f64) {
         if !value.is_finite() {
+            let value = shown(value);
             self.push(
                 place,
                 format!("{what} must be a finite number, found {value}"),
