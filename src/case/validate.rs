@@ -74,6 +74,9 @@ pub const MAX_TOTAL_CELLS: usize = crate::limits::MAX_TOTAL_CELLS;
 fn shown(value: f64) -> String {
     if value.is_infinite() {
         String::from("a number too large to use (it overflows when converted to SI units)")
+    } else if value != 0.0 && !(1e-4..1e6).contains(&value.abs()) {
+        // 1e308 rather than three hundred digits.
+        format!("{value:e}")
     } else {
         value.to_string()
     }
@@ -113,6 +116,7 @@ impl Checker {
     /// Requires `lo <= value <= hi` (a finite value outside is named with the range).
     fn within(&mut self, place: Place, what: &str, value: f64, lo: f64, hi: f64, unit: &str) {
         if value.is_finite() && value > 0.0 && !(lo..=hi).contains(&value) {
+            let value = shown(value);
             self.push(
                 place,
                 format!("{what} {value} is outside the plausible range {lo} to {hi} {unit}")
@@ -207,7 +211,7 @@ fn check_settings(case: &Case, c: &mut Checker) {
             Place::Case("tolerance"),
             format!(
                 "tolerance must be a number from 1e-10 to 0.1, found {}",
-                case.tolerance
+                shown(case.tolerance)
             ),
         );
     }
