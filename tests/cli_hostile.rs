@@ -145,7 +145,7 @@ fn a_zip_bomb_is_refused_from_its_declared_sizes() {
 fn a_csv_of_a_million_lines_is_refused_by_its_line_count() {
     let dir = scratch();
     let mut text = String::from("[case]\n");
-    text.push_str(&"x\n".repeat(dampfront::limits::MAX_CSV_ROWS));
+    text.push_str(&",\n".repeat(dampfront::limits::MAX_CSV_ROWS));
     std::fs::write(dir.path().join("lines.csv"), text).unwrap();
     refused(dir.path(), "lines.csv", "more than 1000000 lines");
 }
@@ -379,4 +379,24 @@ fn a_huge_number_is_named_as_too_large_not_as_inf() {
     write_csv(&dir.path().join("huge.csv"), &case);
     let lines = refused(dir.path(), "huge.csv", "too large to use");
     assert!(lines.iter().all(|l| !l.contains("inf")), "{lines:?}");
+}
+
+#[test]
+fn fuzz_finds_in_tests_bad_fuzz_are_refused_with_problems() {
+    // many_material_rows.csv: found by the read_csv fuzz target as a timeout. Thousands of
+    // rows with problems made the parser compare every problem with every other (a 400 KB
+    // file of such rows took a minute of CPU); each file must end as an input problem.
+    let corpus = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad/fuzz");
+    let mut names: Vec<String> = std::fs::read_dir(&corpus)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert!(!names.is_empty());
+    let dir = scratch();
+    for name in &names {
+        std::fs::copy(corpus.join(name), dir.path().join(name)).unwrap();
+        let lines = refused(dir.path(), name, "");
+        assert!(!lines.is_empty(), "{name}");
+    }
 }
