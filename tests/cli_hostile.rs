@@ -337,6 +337,13 @@ fn a_case_over_its_time_budget_stops_with_a_message_naming_the_option() {
     assert!(shown.contains("--case-seconds"), "{shown}");
     let lines = problems(&dir.path().join("slow.errors.xlsx"));
     assert!(lines.iter().any(|l| l.contains("time budget")), "{lines:?}");
+    // The stop names the cell to change: the tolerance the input gives (case!B8).
+    assert!(
+        lines
+            .iter()
+            .any(|l| l.starts_with("case|B8|the solver stopped")),
+        "{lines:?}"
+    );
 }
 
 #[test]
