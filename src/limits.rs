@@ -17,7 +17,7 @@ pub const MAX_ZIP_ENTRIES: usize = 10_000;
 
 /// Largest number of non-empty cells read from one workbook, all sheets together (every
 /// reader: xlsx, xls, ods and CSV).
-pub const MAX_CELLS: usize = 1_000_000;
+pub const MAX_CELLS: usize = 200_000;
 
 /// Most rows (records, blank ones included) of a CSV input.
 pub const MAX_CSV_ROWS: usize = 1_000_000;

@@ -365,9 +365,18 @@ impl Pipeline {
                 );
             }
             Err(e) => {
+                // A run that took too long or too many steps is eased by a larger tolerance
+                // (or fewer cells, a shorter end): point at the first of those the input gives.
+                let (sheet, cell) = match e {
+                    SolveError::OutOfTime { .. } | SolveError::TooManySteps { .. } => {
+                        given_cell(&parsed.inputs, &["case.tolerance", "case.cells_per_layer"])
+                            .unwrap_or_else(|| (String::from("case"), String::new()))
+                    }
+                    _ => (String::new(), String::new()),
+                };
                 return self.fail(
                     input,
-                    vec![problem("", "", format!("the solver stopped: {e}"))],
+                    vec![problem(&sheet, &cell, format!("the solver stopped: {e}"))],
                 );
             }
         };
@@ -505,6 +514,15 @@ struct Written {
     summary: Vec<write::SummaryEntry>,
     warnings: Vec<String>,
     outputs: Vec<PathBuf>,
+}
+
+/// The sheet and cell of the first of `quantities` the input gave (not a default).
+fn given_cell(inputs: &[parse::InputRecord], quantities: &[&str]) -> Option<(String, String)> {
+    quantities.iter().find_map(|q| {
+        let record = inputs.iter().find(|r| r.quantity == *q)?;
+        let (sheet, cell) = record.source.split_once('!')?;
+        Some((sheet.to_string(), cell.to_string()))
+    })
 }
 
 fn not_ready(why: &str) -> Report {

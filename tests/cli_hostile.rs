@@ -145,7 +145,7 @@ fn a_zip_bomb_is_refused_from_its_declared_sizes() {
 fn a_csv_of_a_million_lines_is_refused_by_its_line_count() {
     let dir = scratch();
     let mut text = String::from("[case]\n");
-    text.push_str(&"x\n".repeat(dampfront::limits::MAX_CSV_ROWS));
+    text.push_str(&",\n".repeat(dampfront::limits::MAX_CSV_ROWS));
     std::fs::write(dir.path().join("lines.csv"), text).unwrap();
     refused(dir.path(), "lines.csv", "more than 1000000 lines");
 }
@@ -337,6 +337,13 @@ fn a_case_over_its_time_budget_stops_with_a_message_naming_the_option() {
     assert!(shown.contains("--case-seconds"), "{shown}");
     let lines = problems(&dir.path().join("slow.errors.xlsx"));
     assert!(lines.iter().any(|l| l.contains("time budget")), "{lines:?}");
+    // The stop names the cell to change: the tolerance the input gives (case!B8).
+    assert!(
+        lines
+            .iter()
+            .any(|l| l.starts_with("case|B8|the solver stopped")),
+        "{lines:?}"
+    );
 }
 
 #[test]
@@ -368,4 +375,35 @@ fn settings_that_multiply_into_a_huge_result_are_refused_at_their_cells() {
     write_csv(&dir.path().join("profiles.csv"), &case);
     let lines = refused(dir.path(), "profiles.csv", "list fewer profile_hours");
     assert!(lines.iter().any(|l| l.starts_with("case|B7|")), "{lines:?}");
+}
+
+#[test]
+fn a_huge_number_is_named_as_too_large_not_as_inf() {
+    // Before: end_hours 1e308 (3.6e311 s) was reported as "found inf".
+    let dir = scratch();
+    let mut case = series_case("huge");
+    case[0].1[3][1] = V::N(1e308);
+    write_csv(&dir.path().join("huge.csv"), &case);
+    let lines = refused(dir.path(), "huge.csv", "too large to use");
+    assert!(lines.iter().all(|l| !l.contains("inf")), "{lines:?}");
+}
+
+#[test]
+fn fuzz_finds_in_tests_bad_fuzz_are_refused_with_problems() {
+    // many_material_rows.csv: found by the read_csv fuzz target as a timeout. Thousands of
+    // rows with problems made the parser compare every problem with every other (a 400 KB
+    // file of such rows took a minute of CPU); each file must end as an input problem.
+    let corpus = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad/fuzz");
+    let mut names: Vec<String> = std::fs::read_dir(&corpus)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert!(!names.is_empty());
+    let dir = scratch();
+    for name in &names {
+        std::fs::copy(corpus.join(name), dir.path().join(name)).unwrap();
+        let lines = refused(dir.path(), name, "");
+        assert!(!lines.is_empty(), "{name}");
+    }
 }

@@ -244,6 +244,31 @@ fn a_fresh_lock_of_a_live_process_is_honoured_and_kept() {
 
 #[test]
 fn an_old_lock_of_a_live_process_is_honoured() {
+    // Old enough to be stale (any age is, with a zero stale time), and its process (this test)
+    // was already running when the lock was written: a live owner.
+    let dir = Scratch::new();
+    dir.write("oak.csv", "x");
+    write_lock(
+        &dir,
+        "oak",
+        &host_name(),
+        std::process::id(),
+        unix_secs_ago(0),
+    );
+    let fake = Fake::solving();
+    let opts = BatchOptions {
+        stale_lock: Duration::ZERO,
+        ..quick_batch(dir.path())
+    };
+    run(&opts, &fake);
+    assert_eq!(fake.runs_of("oak.csv"), 0);
+    assert!(dir.file("oak.lock").exists());
+}
+
+#[test]
+fn an_old_lock_whose_process_id_now_belongs_to_a_newer_process_is_taken_over() {
+    // Before: the id was alive, so the lock was honoured for ever. This test process started
+    // long after the lock's hour-old start time: it cannot be the owner.
     let dir = Scratch::new();
     dir.write("oak.csv", "x");
     write_lock(
@@ -254,9 +279,48 @@ fn an_old_lock_of_a_live_process_is_honoured() {
         unix_secs_ago(3600),
     );
     let fake = Fake::solving();
+    let summary = run(&quick_batch(dir.path()), &fake);
+    assert_eq!(fake.runs_of("oak.csv"), 1, "{summary:?}");
+    assert!(dir.leftovers().is_empty(), "{:?}", dir.leftovers());
+}
+
+#[test]
+fn a_dangling_link_in_place_of_a_lock_does_not_block_the_input() {
+    // Before: x.lock -> nowhere blocked x for ever.
+    let dir = Scratch::new();
+    dir.write("oak.csv", "x");
+    std::os::unix::fs::symlink("/nonexistent/place", dir.file("oak.lock")).unwrap();
+    let fake = Fake::solving();
     run(&quick_batch(dir.path()), &fake);
-    assert_eq!(fake.runs_of("oak.csv"), 0);
-    assert!(dir.file("oak.lock").exists());
+    assert_eq!(fake.runs_of("oak.csv"), 1);
+    assert!(fs::symlink_metadata(dir.file("oak.lock")).is_err());
+}
+
+#[test]
+fn temporary_files_of_a_killed_run_are_removed_once_old() {
+    // Before: never cleaned. A fresh one may belong to a run in progress and stays.
+    let dir = Scratch::new();
+    dir.write("oak.csv", "x");
+    dir.write(".dampfront-abc123.tmp", "half a workbook");
+    dir.set_mtime(".dampfront-abc123.tmp", -3600);
+    dir.write(".dampfront-fresh.tmp", "being written");
+    dir.write(".oak.lock.takeover-host-1-2", "old");
+    dir.set_mtime(".oak.lock.takeover-host-1-2", -3600);
+    let fake = Fake::solving();
+    run(&quick_batch(dir.path()), &fake);
+    let names = dir.names();
+    assert!(
+        !names.contains(&".dampfront-abc123.tmp".to_string()),
+        "{names:?}"
+    );
+    assert!(
+        !names.contains(&".oak.lock.takeover-host-1-2".to_string()),
+        "{names:?}"
+    );
+    assert!(
+        names.contains(&".dampfront-fresh.tmp".to_string()),
+        "{names:?}"
+    );
 }
 
 #[test]
@@ -435,4 +499,38 @@ fn links_out_of_the_folder_are_neither_read_nor_answered_beside() {
     files.sort();
     assert_eq!(files, ["alias.csv", "own.csv"], "{summary:?}");
     assert_eq!(outside.names(), ["far.csv"]);
+}
+
+#[test]
+fn inputs_sharing_a_stem_are_named_and_only_the_newest_is_run() {
+    // Before: kiln.csv, kiln.xlsx and kiln.ods shared one result and lock; one was answered
+    // and the others silently not.
+    let dir = Scratch::new();
+    dir.write("kiln.csv", "x");
+    dir.write("kiln.xlsx", "x");
+    dir.write("kiln.ods", "x");
+    dir.set_mtime("kiln.csv", -100);
+    dir.set_mtime("kiln.ods", -200);
+    dir.set_mtime("kiln.xlsx", -10);
+    let fake = Fake::solving();
+    let summary = run(&quick_batch(dir.path()), &fake);
+    let files: Vec<String> = fake.calls().into_iter().map(|c| c.file).collect();
+    assert_eq!(files, ["kiln.xlsx"]);
+    let clashes: Vec<(String, String)> = summary
+        .skipped
+        .iter()
+        .map(|s| (s.file.display().to_string(), s.reason.to_string()))
+        .collect();
+    assert_eq!(clashes.len(), 2, "{clashes:?}");
+    assert!(
+        clashes
+            .iter()
+            .all(|(_, why)| why.contains("shares its result name with kiln.xlsx")),
+        "{clashes:?}"
+    );
+    assert!(summary.any_problems());
+    assert!(
+        summary.to_string().contains("skipped kiln.csv"),
+        "{summary}"
+    );
 }

@@ -365,3 +365,19 @@ fn a_linked_sub_folder_leading_outside_is_not_served() {
     assert_eq!(fake.runs_of("far.csv"), 0);
     assert_eq!(outside.names(), ["far.csv"]);
 }
+
+#[test]
+fn inputs_sharing_a_stem_are_answered_once_for_the_newest() {
+    let dir = Scratch::new();
+    dir.write("kiln.csv", "x");
+    dir.write("kiln.xlsx", "x");
+    dir.set_mtime("kiln.csv", -100);
+    dir.set_mtime("kiln.xlsx", -10);
+    let fake = Fake::solving();
+    let daemon = Daemon::start(quick_watch(dir.path()), fake.clone());
+    assert!(eventually(|| dir.file("kiln.result.xlsx").exists()));
+    std::thread::sleep(Duration::from_millis(500));
+    daemon.stop().unwrap();
+    let files: Vec<String> = fake.calls().into_iter().map(|c| c.file).collect();
+    assert_eq!(files, ["kiln.xlsx"]);
+}

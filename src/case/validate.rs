@@ -69,6 +69,19 @@ impl fmt::Display for Problem {
 /// The most cells a case may ask for: beyond this a 1-D run gains nothing and memory grows.
 pub const MAX_TOTAL_CELLS: usize = crate::limits::MAX_TOTAL_CELLS;
 
+/// A value for a message: an infinity here comes from a huge number (such as 1e308) that
+/// overflowed when its unit was converted, so say that rather than "inf".
+fn shown(value: f64) -> String {
+    if value.is_infinite() {
+        String::from("a number too large to use (it overflows when converted to SI units)")
+    } else if value != 0.0 && !(1e-4..1e6).contains(&value.abs()) {
+        // 1e308 rather than three hundred digits.
+        format!("{value:e}")
+    } else {
+        value.to_string()
+    }
+}
+
 struct Checker {
     problems: Vec<Problem>,
 }
@@ -84,6 +97,7 @@ impl Checker {
     /// Requires `value` finite and > 0.
     fn positive(&mut self, place: Place, what: &str, value: f64) {
         if !value.is_finite() || value <= 0.0 {
+            let value = shown(value);
             self.push(place, format!("{what} must be a number > 0, found {value}"));
         }
     }
@@ -91,6 +105,7 @@ impl Checker {
     /// Requires `value` finite and >= 0.
     fn non_negative(&mut self, place: Place, what: &str, value: f64) {
         if !value.is_finite() || value < 0.0 {
+            let value = shown(value);
             self.push(
                 place,
                 format!("{what} must be a number >= 0, found {value}"),
@@ -101,6 +116,7 @@ impl Checker {
     /// Requires `lo <= value <= hi` (a finite value outside is named with the range).
     fn within(&mut self, place: Place, what: &str, value: f64, lo: f64, hi: f64, unit: &str) {
         if value.is_finite() && value > 0.0 && !(lo..=hi).contains(&value) {
+            let value = shown(value);
             self.push(
                 place,
                 format!("{what} {value} is outside the plausible range {lo} to {hi} {unit}")
@@ -112,6 +128,7 @@ impl Checker {
 
     fn finite(&mut self, place: Place, what: &str, value: f64) {
         if !value.is_finite() {
+            let value = shown(value);
             self.push(
                 place,
                 format!("{what} must be a finite number, found {value}"),
@@ -194,7 +211,7 @@ fn check_settings(case: &Case, c: &mut Checker) {
             Place::Case("tolerance"),
             format!(
                 "tolerance must be a number from 1e-10 to 0.1, found {}",
-                case.tolerance
+                shown(case.tolerance)
             ),
         );
     }

@@ -16,9 +16,9 @@ use std::time::{Duration, Instant, SystemTime};
 use indicatif::{ProgressBar, ProgressStyle};
 
 use super::daemon::check_dir;
-use super::filter::scan;
+use super::filter::{clash_winner, scan};
 use super::job::{Context, Outcome};
-use super::lock::LockOwner;
+use super::lock::{LockOwner, remove_old_leftovers};
 use super::settle::{Snapshot, next_attempt, sleep_unless, wait_settled};
 use super::{Attempt, BatchOptions, Processor, Report, Status, WatchError, is_stale, worker_count};
 
@@ -47,6 +47,9 @@ pub enum SkipReason {
     Vanished,
     /// The pass was interrupted before it started.
     Interrupted,
+    /// Another input beside it has the same stem (so the same result, errors workbook and
+    /// lock); that one, the most recently modified, was run instead.
+    NameClash(PathBuf),
 }
 
 /// An input that needed a run but was not run by this pass.
@@ -99,14 +102,18 @@ impl BatchSummary {
         skipped + cancelled
     }
 
-    /// Whether any input had problems or failed (the command then exits with 1).
+    /// Whether any input had problems or failed, or two inputs clash in name (the command
+    /// then exits with 1).
     pub fn any_problems(&self) -> bool {
         self.rows.iter().any(|r| {
             matches!(
                 r.status,
                 Status::Problems | Status::Failed | Status::NotReady
             )
-        })
+        }) || self
+            .skipped
+            .iter()
+            .any(|s| matches!(s.reason, SkipReason::NameClash(_)))
     }
 }
 
@@ -117,6 +124,11 @@ impl fmt::Display for SkipReason {
             SkipReason::DoneElsewhere => f.write_str("just run by another runner"),
             SkipReason::Vanished => f.write_str("disappeared"),
             SkipReason::Interrupted => f.write_str("not started before the interruption"),
+            SkipReason::NameClash(other) => write!(
+                f,
+                "shares its result name with {} (the newer one is run); rename one of them",
+                other.display()
+            ),
         }
     }
 }
@@ -224,6 +236,7 @@ pub fn batch_until(
 ) -> Result<BatchSummary, WatchError> {
     let shard = opts.shard.map(|s| s.check()).transpose()?;
     let root = check_dir(&opts.dir)?;
+    remove_old_leftovers(&root, opts.recursive, opts.stale_lock);
     let mut inputs = scan(&root, opts.recursive).map_err(|source| WatchError::Scan {
         dir: root.clone(),
         source,
@@ -232,11 +245,26 @@ pub fn batch_until(
         inputs = shard.select(inputs);
     }
     let total = inputs.len();
-    let todo: Vec<PathBuf> = if opts.force {
+    let candidates: Vec<PathBuf> = if opts.force {
         inputs
     } else {
         inputs.into_iter().filter(|p| is_stale(p)).collect()
     };
+    let mut clashes = Vec::new();
+    let mut todo = Vec::with_capacity(candidates.len());
+    for path in candidates {
+        match clash_winner(&path) {
+            Some(winner) => {
+                let winner = winner.strip_prefix(&root).unwrap_or(&winner).to_path_buf();
+                tracing::warn!(file = %path.display(), other = %winner.display(), "two inputs share one result name; only the newer is run");
+                clashes.push(Skipped {
+                    file: path.strip_prefix(&root).unwrap_or(&path).to_path_buf(),
+                    reason: SkipReason::NameClash(winner),
+                });
+            }
+            None => todo.push(path),
+        }
+    }
     let ctx = Context {
         processor,
         owner: LockOwner::new(),
@@ -271,7 +299,8 @@ pub fn batch_until(
     bar.finish_and_clear();
     spawned.map_err(WatchError::Thread)?;
     let mut summary = BatchSummary {
-        up_to_date: total - todo.len(),
+        up_to_date: total - todo.len() - clashes.len(),
+        skipped: clashes,
         ..BatchSummary::default()
     };
     for result in results.into_inner().unwrap_or_default() {

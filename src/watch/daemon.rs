@@ -11,7 +11,7 @@
 //! cancel flag, waits [`CANCEL_WAIT`] for processors to notice, and abandons what is still
 //! running after removing its locks.
 
-use std::collections::{HashMap, VecDeque};
+use std::collections::{HashMap, HashSet, VecDeque};
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender};
@@ -20,9 +20,9 @@ use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
 
 use super::events::{self, SourceConfig, WatchEvent};
-use super::filter::{dir_in_scope, in_scope, scan};
+use super::filter::{clash_winner, dir_in_scope, in_scope, scan};
 use super::job::{Context, Done, Outcome};
-use super::lock::{LockOwner, release_for};
+use super::lock::{LockOwner, release_for, remove_old_leftovers};
 use super::settle::{self, Ready, Settler, Snapshot, next_attempt};
 use super::{Attempt, Processor, Status, WatchError, WatchOptions, is_stale, worker_count};
 
@@ -84,6 +84,7 @@ fn run(
         &tx,
         &stop,
     )?;
+    remove_old_leftovers(&root, opts.recursive, opts.stale_lock);
     let initial = scan(&root, opts.recursive).map_err(|source| WatchError::Scan {
         dir: root.clone(),
         source,
@@ -109,6 +110,7 @@ fn run(
         queue: VecDeque::new(),
         running: HashMap::new(),
         failed: HashMap::new(),
+        clashes: HashSet::new(),
         pool,
         shutdowns: 0,
     };
@@ -216,6 +218,8 @@ struct Coordinator<'a> {
     running: HashMap<PathBuf, Running>,
     /// Inputs whose last run failed, remembered until they change or their wait is over.
     failed: HashMap<PathBuf, Failure>,
+    /// Inputs whose name clash has been logged (once each).
+    clashes: HashSet<PathBuf>,
     pool: Pool,
     /// Shutdown events seen; the second cuts the grace period short.
     shutdowns: usize,
@@ -235,6 +239,17 @@ impl Coordinator<'_> {
             // It changed while queued: settle again before it is read.
             if let Some(queued) = self.queue.remove(i) {
                 self.settler.add(path, force || queued.force, now);
+            }
+            return;
+        }
+        if let Some(winner) = clash_winner(&path) {
+            if self.clashes.insert(path.clone()) {
+                tracing::warn!(
+                    file = %self.ctx.display_name(&path).display(),
+                    other = %self.ctx.display_name(&winner).display(),
+                    "shares its result name with another input; only the newer one is answered \
+                     (rename one of them)"
+                );
             }
             return;
         }
@@ -344,7 +359,7 @@ impl Coordinator<'_> {
                 }
             }
             Outcome::Busy(who) => {
-                tracing::debug!(file = %file.display(), owner = %who, "locked by another runner; skipped");
+                tracing::info!(file = %file.display(), owner = %who, "locked by another runner; skipped");
             }
             Outcome::UpToDate => {
                 tracing::debug!(file = %file.display(), "already up to date after locking; skipped");

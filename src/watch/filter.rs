@@ -89,6 +89,42 @@ pub(crate) fn in_scope(root: &Path, path: &Path, recursive: bool) -> bool {
     dirs_ok && is_input(path)
 }
 
+/// When another input beside `path` has the same stem (`kiln.csv`, `kiln.xlsx`, `kiln.ods`
+/// share one result, errors workbook and lock), the one that is answered: the most recently
+/// modified, ties going to the name that sorts first. `Some(winner)` when `path` is not it.
+pub(crate) fn clash_winner(path: &Path) -> Option<PathBuf> {
+    let stem = path.file_stem()?;
+    let dir = path.parent()?;
+    let key = |p: &Path| {
+        let modified = std::fs::metadata(p)
+            .and_then(|m| m.modified())
+            .unwrap_or(std::time::UNIX_EPOCH);
+        (std::cmp::Reverse(modified), p.to_path_buf())
+    };
+    let mut best = key(path);
+    let mut winner = None;
+    for ext in INPUT_EXTENSIONS {
+        for candidate in [ext.to_string(), ext.to_uppercase()] {
+            let mut name = stem.to_os_string();
+            name.push(".");
+            name.push(&candidate);
+            let other = dir.join(name);
+            if other == path
+                || !is_input(&other)
+                || !std::fs::metadata(&other).is_ok_and(|m| m.is_file())
+            {
+                continue;
+            }
+            let k = key(&other);
+            if k < best {
+                best = k;
+                winner = Some(other);
+            }
+        }
+    }
+    winner
+}
+
 /// Whether `path`, with every symbolic link in it resolved, lies inside `root` (itself
 /// resolved): a link out of the watched folder is neither read nor answered beside.
 pub(crate) fn stays_inside(root: &Path, path: &Path) -> bool {

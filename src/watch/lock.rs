@@ -141,6 +141,13 @@ pub(crate) fn try_lock(
             Err(e) if e.kind() == io::ErrorKind::AlreadyExists => {}
             Err(e) => return Err(e),
         }
+        // We only ever create plain files: a symbolic link in a lock's place (dangling or not)
+        // is no runner's lock, and left alone it would block the input for ever.
+        if fs::symlink_metadata(&path).is_ok_and(|m| m.file_type().is_symlink()) {
+            tracing::warn!(lock = %path.display(), "a symbolic link stood in place of a lock; removed");
+            let _ = fs::remove_file(&path);
+            continue;
+        }
         let seen = match fs::read_to_string(&path) {
             Ok(text) => text,
             Err(e) if e.kind() == io::ErrorKind::NotFound => continue,
@@ -236,10 +243,18 @@ impl LockInfo {
             .unwrap_or(Duration::ZERO)
     }
 
-    /// Whether the owner is gone, as far as can be told from `our_host`.
+    /// Whether the owner is gone, as far as can be told from `our_host`. A live process with
+    /// the lock's id that started after the lock was written is another process that got the
+    /// id again: the owner is gone.
     fn owner_gone(&self, our_host: &str) -> bool {
         match (&self.host, self.pid) {
-            (Some(host), Some(pid)) if host == our_host => !process_alive(pid),
+            (Some(host), Some(pid)) if host == our_host => {
+                !process_alive(pid)
+                    || matches!(
+                        (process_started(pid), self.started),
+                        (Some(proc_start), Some(lock_start)) if proc_start > lock_start + 2
+                    )
+            }
             // Another host, or an unreadable lock: age alone decides.
             _ => true,
         }
@@ -256,6 +271,69 @@ impl LockInfo {
 #[cfg(target_os = "linux")]
 fn process_alive(pid: u32) -> bool {
     Path::new("/proc").join(pid.to_string()).exists()
+}
+
+/// Removes temporary files that a killed run of this program left in `dir` (and, with
+/// `recursive`, its non-hidden sub-folders): `.dampfront-*.tmp` outputs never renamed into
+/// place and `.NAME.lock.takeover-*` files, once older than `age` (a live writer finishes
+/// within seconds). Returns how many were removed.
+pub(crate) fn remove_old_leftovers(dir: &Path, recursive: bool, age: Duration) -> usize {
+    let mut removed = 0;
+    let mut folders = vec![dir.to_path_buf()];
+    while let Some(folder) = folders.pop() {
+        let Ok(entries) = fs::read_dir(&folder) else {
+            continue;
+        };
+        for entry in entries.flatten() {
+            let Ok(kind) = entry.file_type() else {
+                continue;
+            };
+            let name = entry.file_name().to_string_lossy().into_owned();
+            if kind.is_dir() {
+                if recursive && !name.starts_with('.') && !name.starts_with("~$") {
+                    folders.push(entry.path());
+                }
+                continue;
+            }
+            let ours = (name.starts_with(".dampfront-") && name.ends_with(".tmp"))
+                || (name.starts_with('.') && name.contains(".lock.takeover-"));
+            let old = entry
+                .metadata()
+                .and_then(|m| m.modified())
+                .ok()
+                .and_then(|t| SystemTime::now().duration_since(t).ok())
+                .is_some_and(|a| a >= age);
+            if kind.is_file() && ours && old && fs::remove_file(entry.path()).is_ok() {
+                tracing::info!(file = %entry.path().display(), "removed a temporary file left by a stopped run");
+                removed += 1;
+            }
+        }
+    }
+    removed
+}
+
+/// When process `pid` started, in seconds since the Unix epoch: the boot time (`btime` in
+/// /proc/stat) plus the start time in clock ticks (field 22 of /proc/PID/stat; proc(5)) at the
+/// usual 100 ticks per second.
+#[cfg(target_os = "linux")]
+fn process_started(pid: u32) -> Option<u64> {
+    let stat = fs::read_to_string(format!("/proc/{pid}/stat")).ok()?;
+    // The command name (field 2) is in parentheses and may hold spaces: count after it.
+    let after = stat.rsplit_once(')')?.1;
+    let ticks: u64 = after.split_whitespace().nth(19)?.parse().ok()?;
+    let boot: u64 = fs::read_to_string("/proc/stat")
+        .ok()?
+        .lines()
+        .find_map(|l| l.strip_prefix("btime "))?
+        .trim()
+        .parse()
+        .ok()?;
+    Some(boot + ticks / 100)
+}
+
+#[cfg(not(target_os = "linux"))]
+fn process_started(_pid: u32) -> Option<u64> {
+    None
 }
 
 /// Without `/proc` a process cannot be checked; age alone decides.

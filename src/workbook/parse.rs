@@ -223,6 +223,13 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
         .problems
         .iter()
         .any(|(l, _)| l.sheet.eq_ignore_ascii_case("materials"));
+    // Cells that already have a problem, looked up in a set: a scan of the list for each
+    // problem was quadratic (a 400 KB CSV of many rows took a minute).
+    let mut flagged: std::collections::HashSet<(String, String)> = ctx
+        .problems
+        .iter()
+        .map(|(l, _)| (l.sheet.clone(), l.cell.clone()))
+        .collect();
     for p in case.validate() {
         if ctx.suppressed(&p.place) {
             continue;
@@ -239,12 +246,10 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
             continue;
         }
         let at = places.locate(&p.place, &p.message);
-        let repeated = !at.cell.is_empty()
-            && ctx
-                .problems
-                .iter()
-                .any(|(l, _)| l.sheet == at.sheet && l.cell == at.cell);
+        let key = (at.sheet.clone(), at.cell.clone());
+        let repeated = !at.cell.is_empty() && flagged.contains(&key);
         if !repeated {
+            flagged.insert(key);
             ctx.problem(&at, None, p.message);
         }
     }

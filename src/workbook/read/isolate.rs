@@ -151,6 +151,15 @@ fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadErr
     #[cfg(unix)]
     {
         use std::os::unix::process::ExitStatusExt;
+        /// SIGINT, SIGHUP and SIGTERM (Linux numbering): someone stopped the child; the input
+        /// is not to blame.
+        const STOP_SIGNALS: [i32; 3] = [1, 2, 15];
+        if status.signal().is_some_and(|s| STOP_SIGNALS.contains(&s)) {
+            return Err(system(
+                "the reader process was stopped",
+                std::io::Error::other("by a signal"),
+            ));
+        }
         /// SIGKILL and SIGXCPU (Linux numbering): the CPU limit ended the child.
         const CPU_SIGNALS: [i32; 2] = [9, 24];
         if status.signal().is_some_and(|s| CPU_SIGNALS.contains(&s)) {
@@ -179,6 +188,14 @@ fn not_a_workbook(detail: &str) -> ReadError {
 /// `extension`, writes the cells (or the error) to standard output. Returns the exit code.
 pub fn child_main(extension: &str) -> i32 {
     limit_self();
+    // Ctrl-C in a terminal reaches the whole process group: the parent decides what a stop
+    // means, the child finishes its (short) read.
+    for signal in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+        let _ = signal_hook::flag::register(
+            signal,
+            std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false)),
+        );
+    }
     // A panic inside the reader is caught and answered as an error; say nothing on stderr.
     std::panic::set_hook(Box::new(|_| {}));
     let mut bytes = Vec::new();
