@@ -11,6 +11,7 @@ pub mod coupled;
 mod driver;
 pub mod flux;
 pub mod mesh;
+pub mod model;
 pub mod problem;
 pub mod state;
 mod stepper;

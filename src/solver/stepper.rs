@@ -12,11 +12,11 @@
 use std::fmt;
 
 use super::SolveError;
-use super::coupled::{self, CoupledWorkspace, HeatFace, HeatFaces};
+use super::coupled::{HeatFace, HeatFaces};
 use super::flux::{self, FaceLaws, Surfaces};
+use super::model::{self, Conditions, Model, Rates};
 use super::problem::{Air, FaceLaw, Problem};
 use super::state::State;
-use super::workspace::Workspace;
 
 /// What crossed the exposed faces over a time, per m2 of face A (integrals of the face rates).
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
@@ -33,6 +33,16 @@ pub struct Exchanged {
 }
 
 impl Exchanged {
+    /// Rates held for `dt` seconds.
+    fn over(rates: Rates, dt: f64) -> Exchanged {
+        Exchanged {
+            water: rates.water * dt,
+            convective: rates.convective * dt,
+            latent: rates.latent * dt,
+            energy_in: rates.energy_in * dt,
+        }
+    }
+
     fn scaled(self, f: f64) -> Exchanged {
         Exchanged {
             water: f * self.water,
@@ -168,7 +178,6 @@ struct Trial {
 }
 
 /// Advances a [`Problem`] in time. The caller drives it with [`Stepper::step`].
-#[derive(Debug, Clone)]
 pub struct Stepper<'p> {
     problem: &'p Problem,
     t: f64,
@@ -178,8 +187,7 @@ pub struct Stepper<'p> {
     triggers: [Option<f64>; 2],
     step_index: usize,
     step_start: f64,
-    ws: Workspace,
-    coupled_ws: Option<CoupledWorkspace>,
+    model: Box<dyn Model + 'p>,
     trial: Trial,
     controller: Controller,
     stats: Stats,
@@ -209,8 +217,7 @@ impl<'p> Stepper<'p> {
             triggers: [None, None],
             step_index: 0,
             step_start: 0.0,
-            ws: Workspace::new(n),
-            coupled_ws: coupled.then(|| CoupledWorkspace::new(n)),
+            model: model::for_problem(problem),
             trial: Trial {
                 full: State::zeros(n, coupled),
                 half: State::zeros(n, coupled),
@@ -246,8 +253,7 @@ impl<'p> Stepper<'p> {
     /// Work counters so far.
     pub fn stats(&self) -> Stats {
         Stats {
-            linear_solves: self.ws.linear_solves
-                + self.coupled_ws.as_ref().map_or(0, |w| w.linear_solves),
+            linear_solves: self.model.linear_solves(),
             ..self.stats
         }
     }
@@ -307,28 +313,17 @@ impl<'p> Stepper<'p> {
     /// Surface figures of `state` at time `t` within the schedule step in force (for
     /// interpolated states; fills the workspace's face arrays).
     pub fn surfaces_at(&mut self, state: &State, t: f64) -> Surfaces {
-        let (laws, t_c) = self.laws_at(t);
-        let faces = self.heat_faces(&laws, t);
-        match (&self.problem.thermal, &mut self.coupled_ws) {
-            (Some(thermal), Some(cws)) => {
-                let c = coupled::evaluate_faces(self.problem, thermal, &faces, state, cws);
-                let n = state.moisture.len();
-                let mut s = Surfaces {
-                    x_a: state.moisture[0],
-                    x_b: state.moisture[n - 1],
-                    t_a: state.temperature[0],
-                    t_b: state.temperature[n - 1],
-                    ..Surfaces::default()
-                };
-                if let Some(f) = c.a {
-                    (s.out_a, s.x_a, s.t_a) = (f.outflow, f.x_s, f.t_s);
-                }
-                if let Some(f) = c.b {
-                    (s.out_b, s.x_b, s.t_b) = (f.outflow, f.x_s, f.t_s);
-                }
-                s
-            }
-            _ => flux::evaluate_faces(self.problem, &laws, t_c, &state.moisture, &mut self.ws),
+        let conditions = self.conditions_at(t);
+        self.model.surfaces(&conditions, state)
+    }
+
+    /// What the exposed faces see at time `t` in the schedule step in force.
+    fn conditions_at(&self, t: f64) -> Conditions {
+        let (laws, t_air) = self.laws_at(t);
+        Conditions {
+            laws,
+            t_air,
+            heat: self.heat_faces(&laws, t),
         }
     }
 
@@ -451,9 +446,7 @@ impl<'p> Stepper<'p> {
         which: fn(&mut Trial) -> &mut State,
         from_current: bool,
     ) -> Result<Exchanged, flux::NewtonFailure> {
-        let (laws, t_c) = self.laws_at(t + dt);
-        let faces = self.heat_faces(&laws, t + dt);
-        let p = self.problem;
+        let conditions = self.conditions_at(t + dt);
         // The half step's result is the start of the second half: move it out of the way.
         let mut new = std::mem::take(which(&mut self.trial));
         let old = if from_current {
@@ -461,45 +454,14 @@ impl<'p> Stepper<'p> {
         } else {
             &self.trial.half
         };
-        let result = match (&p.thermal, &mut self.coupled_ws) {
-            (Some(thermal), Some(cws)) => coupled::backward_euler(
-                p, thermal, &faces, dt, old, &mut new, cws,
-            )
-            .map(|(s, iterations)| {
-                let mut e = Exchanged::default();
-                for (site, f) in [(p.face_a, s.a), (p.face_b, s.b)] {
-                    if let (Some(site), Some(f)) = (site, f) {
-                        e.water += site.area * f.outflow;
-                        e.convective += site.area * f.convective;
-                        e.latent += site.area * f.latent;
-                        e.energy_in += site.area * f.energy_in;
-                    }
-                }
-                (e, iterations)
-            }),
-            _ => flux::backward_euler(
-                p,
-                &laws,
-                t_c,
-                dt,
-                &old.moisture,
-                &mut new.moisture,
-                &mut self.ws,
-            )
-            .map(|(s, iterations)| {
-                (
-                    Exchanged {
-                        water: s.total_out(p),
-                        ..Exchanged::default()
-                    },
-                    iterations,
-                )
-            }),
-        };
+        let result = self
+            .model
+            .backward_euler(&conditions, dt, old, &mut new)
+            .map(|(rates, iterations)| (Exchanged::over(rates, dt), iterations));
         *which(&mut self.trial) = new;
-        let (rates, iterations) = result?;
+        let (exchanged, iterations) = result?;
         self.stats.newton_iterations += iterations as u64;
-        Ok(rates.scaled(dt))
+        Ok(exchanged)
     }
 
     /// Computes the extrapolated candidate for a step of `dt`; returns (scaled error, what
