@@ -7,6 +7,7 @@ use std::time::Instant;
 
 use super::SolveError;
 use super::problem::{Air, Problem, StepPlan};
+use super::schedule::{ScheduleWalker, StepEnd, StepRecord};
 use super::stepper::{Stats, Stepper, StopReason};
 
 /// One output row. Moistures are dry-basis fractions; temperatures in degrees C.
@@ -64,54 +65,6 @@ pub struct Profile {
     pub face_a: Option<f64>,
     /// Surface moisture at face B when it is exposed (and the profile was taken).
     pub face_b: Option<f64>,
-}
-
-/// How a schedule step ended.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum StepEnd {
-    /// Its hours ran out.
-    Time,
-    /// The mean moisture reached its `until_moisture`.
-    Moisture,
-    /// The mean moisture reached the case's target; the run ended.
-    Target,
-    /// The run's end time came first.
-    End,
-    /// Its `until_moisture` was already reached when it began: it did not run.
-    Skipped,
-}
-
-impl StepEnd {
-    /// The word the `steps` sheet shows.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            StepEnd::Time => "time",
-            StepEnd::Moisture => "moisture",
-            StepEnd::Target => "target",
-            StepEnd::End => "end",
-            StepEnd::Skipped => "skipped",
-        }
-    }
-}
-
-/// One schedule step that ran or was skipped.
-#[derive(Debug, Clone, PartialEq)]
-pub struct StepRecord {
-    /// Index into the schedule.
-    pub index: usize,
-    /// When it began, s.
-    pub start: f64,
-    /// When it ended, s.
-    pub end: f64,
-    /// Why it ended.
-    pub ended_by: StepEnd,
-    /// Mean moisture at its end, dry fraction.
-    pub mean_at_end: f64,
-    /// The (surface, centre) moistures, dry fraction, where |surface - centre| was largest
-    /// within the step (`None` when skipped).
-    pub max_difference_pair: Option<(f64, f64)>,
-    /// Air at its end (a skipped step: the air it would have ended with).
-    pub air_at_end: Air,
 }
 
 /// How a run ended.
@@ -210,18 +163,14 @@ struct Driver<'p> {
     max_pair: Option<(f64, f64)>,
     drying_time: Option<f64>,
     status: RunStatus,
-    step_starts: Vec<(f64, usize)>,
-    schedule_done: bool,
+    walker: ScheduleWalker,
     warnings: Vec<String>,
-    steps: Vec<StepRecord>,
-    step_max_difference: f64,
-    step_max_pair: Option<(f64, f64)>,
     time_of_max: Option<f64>,
 }
 
 /// The exposed surface's equilibrium moisture under `air` in `step`: a fixed surface value,
 /// the given equilibrium, or the surface material's isotherm at the air's humidity.
-fn surface_equilibrium(p: &Problem, step: &StepPlan, air: Air) -> Option<f64> {
+pub(super) fn surface_equilibrium(p: &Problem, step: &StepPlan, air: Air) -> Option<f64> {
     if let crate::case::Exchange::FixedSurface(x) = step.exchange {
         return Some(x);
     }
@@ -261,91 +210,10 @@ impl<'p> Driver<'p> {
             max_pair: None,
             drying_time: None,
             status: RunStatus::Ok,
-            step_starts: vec![(0.0, 0)],
-            schedule_done: false,
+            walker: ScheduleWalker::new(),
             warnings: Vec::new(),
-            steps: Vec::new(),
-            step_max_difference: 0.0,
-            step_max_pair: None,
             time_of_max: None,
         }
-    }
-
-    /// Records the end of the step in force (nothing once the schedule has run out: the last
-    /// step was recorded when it ended).
-    fn close_step(&mut self, ended_by: StepEnd) {
-        if self.schedule_done {
-            return;
-        }
-        let (index, start) = self.stepper.schedule_step();
-        let t = self.stepper.time();
-        self.steps.push(StepRecord {
-            index,
-            start,
-            end: t,
-            ended_by,
-            mean_at_end: self.p.mean(self.stepper.moisture()),
-            max_difference_pair: self.step_max_pair,
-            air_at_end: self.stepper.air_at(t),
-        });
-    }
-
-    /// Whether the step in force began with its `until_moisture` already reached, judged from
-    /// its own air: a step whose air dries the body (mean above the equilibrium it drives
-    /// towards) has reached a level at or above the mean; one whose air wets it, a level at
-    /// or below. Returns why, as the end of the warning's sentence.
-    fn already_reached(&self) -> Option<&'static str> {
-        let (index, _) = self.stepper.schedule_step();
-        let step = self.p.steps.get(index)?;
-        let level = step.until_moisture?;
-        let mean = self.p.mean(self.stepper.moisture());
-        if mean == level {
-            return Some("the mean stood exactly at it");
-        }
-        let eq = self
-            .p
-            .equilibrium_mean(step, step.to)
-            .filter(|x| x.is_finite())
-            .or_else(|| surface_equilibrium(self.p, step, step.to))?;
-        if mean > eq && mean <= level {
-            Some("the step's air dries the product and the mean was already at or below it")
-        } else if mean < eq && mean >= level {
-            Some("the step's air wets the product and the mean was already at or above it")
-        } else {
-            None
-        }
-    }
-
-    /// Starts the step now in force: skips it (with a warning) when its trigger is already
-    /// reached, and resets the within-step figures otherwise.
-    fn enter_step(&mut self) {
-        if let Some(why) = self.already_reached() {
-            let (index, _) = self.stepper.schedule_step();
-            let t = self.stepper.time();
-            let step = &self.p.steps[index];
-            self.steps.push(StepRecord {
-                index,
-                start: t,
-                end: t,
-                ended_by: StepEnd::Skipped,
-                mean_at_end: self.p.mean(self.stepper.moisture()),
-                max_difference_pair: None,
-                air_at_end: step.to,
-            });
-            self.warnings.push(format!(
-                "step {} ({}) was skipped: when it began at {:.3} h its until_moisture_pct was \
-                 already reached ({why})",
-                index + 1,
-                step.label,
-                t / 3600.0,
-            ));
-            self.advance_schedule();
-            return;
-        }
-        self.step_max_difference = 0.0;
-        self.step_max_pair = None;
-        self.track_difference();
-        self.set_triggers();
     }
 
     fn output_time(&self, k: u64) -> f64 {
@@ -354,21 +222,23 @@ impl<'p> Driver<'p> {
 
     /// End of the schedule step in force, if it has a duration.
     fn step_end(&self) -> Option<f64> {
-        if self.schedule_done {
-            return None;
-        }
-        let (i, start) = self.stepper.schedule_step();
-        self.p.steps.get(i)?.duration.map(|d| start + d)
+        self.walker.step_end(self.p, &self.stepper)
     }
 
-    fn set_triggers(&mut self) {
-        let (i, _) = self.stepper.schedule_step();
-        let until = if self.schedule_done {
-            None
-        } else {
-            self.p.steps.get(i).and_then(|s| s.until_moisture)
-        };
-        self.stepper.set_triggers([self.p.target, until]);
+    fn close_step(&mut self, ended_by: StepEnd) {
+        self.walker.close(self.p, &self.stepper, ended_by);
+    }
+
+    /// Puts the first schedule step in force (skipping it when its trigger is already met).
+    fn enter_step(&mut self) {
+        self.walker.start(self.p, &mut self.stepper);
+        self.track_difference();
+    }
+
+    /// Moves to the next schedule step (skipping those whose trigger is already met).
+    fn advance_schedule(&mut self) {
+        self.walker.advance(self.p, &mut self.stepper);
+        self.track_difference();
     }
 
     fn run(&mut self, control: &RunControl<'_>) -> Result<(), SolveError> {
@@ -469,25 +339,6 @@ impl<'p> Driver<'p> {
         }
     }
 
-    fn advance_schedule(&mut self) {
-        let (i, _) = self.stepper.schedule_step();
-        let t = self.stepper.time();
-        if i + 1 < self.p.steps.len() {
-            self.stepper.set_schedule_step(i + 1, t);
-            self.step_starts.push((t, i + 1));
-            // A step whose trigger is already met is skipped.
-            self.enter_step();
-            return;
-        } else if !self.schedule_done {
-            self.schedule_done = true;
-            self.warnings.push(format!(
-                "the schedule ran out at {:.3} h; the last step's air was held to the end",
-                t / 3600.0
-            ));
-        }
-        self.set_triggers();
-    }
-
     fn track_difference(&mut self) {
         let surfaces = self.stepper.surfaces();
         let x = self.stepper.moisture();
@@ -501,10 +352,7 @@ impl<'p> Driver<'p> {
             self.max_pair = Some((surface, centre));
             self.time_of_max = Some(self.stepper.time());
         }
-        if d > self.step_max_difference || self.step_max_pair.is_none() {
-            self.step_max_difference = d;
-            self.step_max_pair = Some((surface, centre));
-        }
+        self.walker.note_difference(d, (surface, centre));
     }
 
     /// Output rows and profiles whose times fall inside the last step (before its end),
@@ -727,9 +575,14 @@ impl<'p> Driver<'p> {
             cells: p.len(),
             stats: self.stepper.stats(),
             solve_seconds,
-            step_starts: self.step_starts,
-            warnings: self.warnings,
-            steps: self.steps,
+            step_starts: self.walker.starts,
+            warnings: self
+                .walker
+                .warnings
+                .into_iter()
+                .chain(self.warnings)
+                .collect(),
+            steps: self.walker.records,
             time_of_max_difference: self.time_of_max,
             evaporation_energy,
             thickness: p.mesh.length,

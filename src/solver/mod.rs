@@ -13,13 +13,15 @@ pub mod flux;
 pub mod mesh;
 pub mod model;
 pub mod problem;
+mod schedule;
 pub mod state;
 mod stepper;
 pub mod tridiag;
 mod workspace;
 
-pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, StepEnd, StepRecord, run};
+pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
 pub use problem::Problem;
+pub use schedule::{StepEnd, StepRecord};
 pub use state::State;
 pub use stepper::{Controller, Stats, Stepper, StopReason};
 pub use workspace::Workspace;
