@@ -77,7 +77,7 @@ pub enum Command {
         #[arg(long, default_value_t = 30.0, hide = true)]
         grace_secs: f64,
         /// Seconds one case may compute before it is stopped with a message.
-        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::FOLDER_CASE_SECONDS)]
         case_seconds: f64,
     },
     /// One pass over a folder with the watcher's rules, then a closing table.
@@ -107,7 +107,7 @@ pub enum Command {
         #[arg(long, default_value_t = 600.0, hide = true)]
         stale_lock_secs: f64,
         /// Seconds one case may compute before it is stopped with a message.
-        #[arg(long, value_name = "SECS", default_value_t = crate::limits::CASE_SECONDS)]
+        #[arg(long, value_name = "SECS", default_value_t = crate::limits::FOLDER_CASE_SECONDS)]
         case_seconds: f64,
     },
     /// Write a ready-to-run example workbook: wood, food, clay or blank.

@@ -50,9 +50,14 @@ pub const MAX_PROFILE_TIMES: usize = 1000;
 /// Most curve rows asked for through `output_every_min` (end time / spacing).
 pub const MAX_OUTPUT_ROWS: f64 = 1e6;
 
-/// Seconds one case may take to solve by default before it is stopped with a message
-/// (`--case-seconds` changes it).
+/// Seconds one case may take to solve by default under `solve`, before it is stopped with a
+/// message (`--case-seconds` changes it): a person at a terminal who asked for a long run.
 pub const CASE_SECONDS: f64 = 600.0;
+
+/// The same for `watch` and `batch`, where anyone on the network can drop a file: an input
+/// that would keep a worker busy longer is answered with an errors workbook instead. Ordinary
+/// cases take well under a second; a fine mesh or a long coupled run can be given more.
+pub const FOLDER_CASE_SECONDS: f64 = 20.0;
 
 /// How long an input that cannot be opened but is no longer changing is retried before it
 /// is reported, in seconds.
