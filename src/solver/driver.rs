@@ -6,6 +6,8 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::Instant;
 
 use super::SolveError;
+use super::flux::Surfaces;
+use super::observe::{CurveRecorder, Observer, ProfileRecorder, Sample};
 use super::problem::{Air, Problem, StepPlan};
 use super::schedule::{ScheduleWalker, StepEnd, StepRecord};
 use super::stepper::{Stats, Stepper, StopReason};
@@ -150,10 +152,8 @@ pub fn run(problem: &Problem, control: &RunControl<'_>) -> Result<RunResult, Sol
 struct Driver<'p> {
     p: &'p Problem,
     stepper: Stepper<'p>,
-    curves: Vec<CurveRow>,
-    profiles: Vec<Profile>,
-    next_profile: usize,
-    next_output: u64,
+    curves: CurveRecorder<'p>,
+    profiles: ProfileRecorder<'p>,
     initial_mean: f64,
     initial_water: f64,
     initial_energy: f64,
@@ -184,7 +184,7 @@ pub(super) fn surface_equilibrium(p: &Problem, step: &StepPlan, air: Air) -> Opt
 }
 
 /// Time comparisons tolerate this relative round-off.
-fn same_time(a: f64, b: f64) -> bool {
+pub(super) fn same_time(a: f64, b: f64) -> bool {
     (a - b).abs() <= 1e-9 * a.abs().max(b.abs()).max(1.0)
 }
 
@@ -198,10 +198,8 @@ impl<'p> Driver<'p> {
         Driver {
             p,
             stepper,
-            curves: Vec::new(),
-            profiles: Vec::new(),
-            next_profile: 0,
-            next_output: 1,
+            curves: CurveRecorder::new(p),
+            profiles: ProfileRecorder::new(p),
             initial_mean,
             initial_water: p.water(&p.initial),
             initial_energy,
@@ -214,10 +212,6 @@ impl<'p> Driver<'p> {
             warnings: Vec::new(),
             time_of_max: None,
         }
-    }
-
-    fn output_time(&self, k: u64) -> f64 {
-        self.p.output_every * k as f64
     }
 
     /// End of the schedule step in force, if it has a duration.
@@ -292,21 +286,10 @@ impl<'p> Driver<'p> {
             match reason {
                 StopReason::Internal => {}
                 StopReason::StopTime => {
-                    let mut recorded = false;
-                    while same_time(t, self.output_time(self.next_output))
-                        || self.output_time(self.next_output) < t
-                    {
-                        self.next_output += 1;
-                        if !recorded {
-                            self.record_row();
-                            recorded = true;
-                        }
-                    }
+                    // A landing: the end or the step's end, each gets a row.
+                    self.record_row();
                     self.take_profiles();
                     if same_time(t, end) || t >= end {
-                        if !recorded {
-                            self.record_row();
-                        }
                         let own_end = self.step_end().is_some_and(|e| same_time(t, e) || e < t);
                         self.close_step(if own_end { StepEnd::Time } else { StepEnd::End });
                         if self.p.target.is_some() {
@@ -315,9 +298,6 @@ impl<'p> Driver<'p> {
                         return Ok(());
                     }
                     if self.step_end().is_some_and(|e| same_time(t, e) || e < t) {
-                        if !recorded {
-                            self.record_row();
-                        }
                         self.close_step(StepEnd::Time);
                         self.advance_schedule();
                     }
@@ -355,146 +335,79 @@ impl<'p> Driver<'p> {
         self.walker.note_difference(d, (surface, centre));
     }
 
-    /// Output rows and profiles whose times fall inside the last step (before its end),
-    /// from the interpolated state.
+    /// The surfaces, air and schedule step of the state in `scratch` at time `t`.
+    fn describe_scratch(&mut self, t: f64) -> (Surfaces, Air, usize) {
+        let surfaces = self.stepper.surfaces_at(&self.scratch, t);
+        (
+            surfaces,
+            self.stepper.air_at(t),
+            self.stepper.schedule_step().0,
+        )
+    }
+
+    /// Hands each observer the stepper's dense output at the times it wants inside the last
+    /// step (before its end), in time order.
     fn emit_before(&mut self, t: f64) {
         loop {
-            let at = self.output_time(self.next_output);
-            if at >= t || same_time(at, t) {
+            let wanted = [self.curves.next_time(), self.profiles.next_time()]
+                .into_iter()
+                .flatten()
+                .filter(|&at| at < t && !same_time(at, t))
+                .min_by(f64::total_cmp);
+            let Some(at) = wanted else {
                 break;
-            }
+            };
             self.stepper.interpolate_into(at, &mut self.scratch);
-            self.record_scratch_row(at);
-            self.next_output += 1;
-        }
-        while let Some(&at) = self.p.profile_times.get(self.next_profile) {
-            if at >= t || same_time(at, t) {
-                break;
+            let (surfaces, air, step) = self.describe_scratch(at);
+            let sample = Sample {
+                time: at,
+                state: &self.scratch,
+                surfaces: &surfaces,
+                air,
+                step,
+            };
+            let observers: [&mut dyn Observer; 2] = [&mut self.curves, &mut self.profiles];
+            for observer in observers {
+                if observer
+                    .next_time()
+                    .is_some_and(|n| same_time(n, at) || n < at)
+                {
+                    observer.observe(&sample);
+                }
             }
-            self.stepper.interpolate_into(at, &mut self.scratch);
-            let profile = self.scratch_profile(at);
-            self.profiles.push(profile);
-            self.next_profile += 1;
         }
     }
 
-    /// A row of the current state.
+    /// The current state, as a sample in `scratch`.
+    fn sample_now(&mut self) -> (f64, Surfaces, Air, usize) {
+        let t = self.stepper.time();
+        self.scratch.clone_from(self.stepper.state());
+        let (surfaces, air, step) = self.describe_scratch(t);
+        (t, surfaces, air, step)
+    }
+
+    /// A `curves` row of the current state (a landing).
     fn record_row(&mut self) {
-        let t = self.stepper.time();
-        self.scratch.clone_from(self.stepper.state());
-        self.record_scratch_row(t);
-    }
-
-    /// A row of the state in `scratch` at time `t` (within the schedule step in force).
-    fn record_scratch_row(&mut self, t: f64) {
-        let surfaces = self.stepper.surfaces_at(&self.scratch, t);
-        let p = self.p;
-        let x = &self.scratch.moisture;
-        let mean = p.mean(x);
-        let surface = p.surface_value(&surfaces);
-        let air = self.stepper.air_at(t);
-        let (step_index, _) = self.stepper.schedule_step();
-        let moisture_ratio = p.steps.get(step_index).and_then(|step| {
-            let eq = p.equilibrium_mean(step, air)?;
-            let span = self.initial_mean - eq;
-            (span.abs() > 1e-12 * self.initial_mean.abs().max(1e-12)).then(|| (mean - eq) / span)
-        });
-        let layer_means = p
-            .mesh
-            .layer_cells
-            .iter()
-            .map(|r| {
-                let m: f64 = p.dry_mass[r.clone()].iter().sum();
-                let w: f64 = p.dry_mass[r.clone()]
-                    .iter()
-                    .zip(&x[r.clone()])
-                    .map(|(a, b)| a * b)
-                    .sum();
-                w / m
-            })
-            .collect();
-        let temps = &self.scratch.temperature;
-        let (mean_temp_c, surface_temp_c, centre_temp_c) = if temps.is_empty() {
-            (air.dry_bulb_c, air.dry_bulb_c, air.dry_bulb_c)
-        } else {
-            (
-                p.mean(temps),
-                p.surface_temperature(&surfaces),
-                p.centre_value(temps),
-            )
-        };
-        let centre = p.centre_value(x);
-        let surface_material = p
-            .face_a
-            .or(p.face_b)
-            .map_or(p.cell_material[0], |f| f.material);
-        let [(i, wi), (j, wj)] = p.centre;
-        let centre_material = p.cell_material[if wi >= wj { i } else { j }];
-        let activity = |material: usize, x: f64, t_c: f64| {
-            p.materials[material]
-                .isotherm
-                .water_activity(x, t_c)
-                .filter(|a| a.is_finite())
-        };
-        let equilibrium = p
-            .steps
-            .get(step_index)
-            .and_then(|step| surface_equilibrium(p, step, air));
-        let row = CurveRow {
-            time: t,
-            mean,
-            surface,
-            centre,
-            moisture_ratio,
-            mean_temp_c,
-            surface_temp_c,
-            centre_temp_c,
-            drying_rate: surfaces.total_out(p) / p.total_dry_mass(),
-            air_temp_c: air.dry_bulb_c,
-            air_rh: air.rh,
-            step: step_index,
-            layer_means,
-            equilibrium,
-            surface_water_activity: activity(surface_material, surface, surface_temp_c),
-            centre_water_activity: activity(centre_material, centre, centre_temp_c),
-        };
-        if self.curves.last().is_some_and(|r| same_time(r.time, t)) {
-            self.curves.pop();
-        }
-        self.curves.push(row);
-    }
-
-    /// A profile of the current state at time `time`, with the exposed faces' surface values.
-    fn profile_now(&mut self, time: f64) -> Profile {
-        self.scratch.clone_from(self.stepper.state());
-        self.scratch_profile(time)
-    }
-
-    /// A profile of the state in `scratch` at time `time`.
-    fn scratch_profile(&mut self, time: f64) -> Profile {
-        let surfaces = self.stepper.surfaces_at(&self.scratch, time);
-        let coupled = self.p.thermal.is_some();
-        Profile {
+        let (time, surfaces, air, step) = self.sample_now();
+        self.curves.observe(&Sample {
             time,
-            moisture: Some(self.scratch.moisture.clone()),
-            temperature: coupled.then(|| self.scratch.temperature.clone()),
-            face_a: self.p.face_a.map(|_| surfaces.x_a),
-            face_b: self.p.face_b.map(|_| surfaces.x_b),
-            face_a_temp: self.p.face_a.filter(|_| coupled).map(|_| surfaces.t_a),
-            face_b_temp: self.p.face_b.filter(|_| coupled).map(|_| surfaces.t_b),
-        }
+            state: &self.scratch,
+            surfaces: &surfaces,
+            air,
+            step,
+        });
     }
 
+    /// Profiles due at the current time (a landing).
     fn take_profiles(&mut self) {
-        let t = self.stepper.time();
-        while let Some(&pt) = self.p.profile_times.get(self.next_profile) {
-            if !(same_time(pt, t) || pt < t) {
-                break;
-            }
-            let profile = self.profile_now(pt);
-            self.profiles.push(profile);
-            self.next_profile += 1;
-        }
+        let (time, surfaces, air, step) = self.sample_now();
+        self.profiles.observe(&Sample {
+            time,
+            state: &self.scratch,
+            surfaces: &surfaces,
+            air,
+            step,
+        });
     }
 
     fn finish(mut self, solve_seconds: f64) -> RunResult {
@@ -502,9 +415,9 @@ impl<'p> Driver<'p> {
         let p = self.p;
         // Profiles the run did not reach: empty columns where the user asked for them, and
         // the final state where the times were defaults.
-        for &pt in &p.profile_times[self.next_profile.min(p.profile_times.len())..] {
+        for &pt in &p.profile_times[self.profiles.next.min(p.profile_times.len())..] {
             if p.profile_times_given {
-                self.profiles.push(Profile {
+                self.profiles.profiles.push(Profile {
                     time: pt,
                     moisture: None,
                     temperature: None,
@@ -515,11 +428,25 @@ impl<'p> Driver<'p> {
                 });
             }
         }
-        if !p.profile_times_given && self.profiles.last().is_none_or(|pr| !same_time(pr.time, t)) {
-            let profile = self.profile_now(t);
-            self.profiles.push(profile);
+        if !p.profile_times_given
+            && self
+                .profiles
+                .profiles
+                .last()
+                .is_none_or(|pr| !same_time(pr.time, t))
+        {
+            let (time, surfaces, air, step) = self.sample_now();
+            let sample = Sample {
+                time,
+                state: &self.scratch,
+                surfaces: &surfaces,
+                air,
+                step,
+            };
+            let profile = self.profiles.profile_of(&sample, t);
+            self.profiles.profiles.push(profile);
         }
-        if p.profile_times_given && self.next_profile < p.profile_times.len() {
+        if p.profile_times_given && self.profiles.next < p.profile_times.len() {
             self.warnings.push(format!(
                 "the run ended at {:.3} h, before some profile_hours; those columns are empty",
                 t / 3600.0
@@ -562,9 +489,9 @@ impl<'p> Driver<'p> {
             0.0
         };
         RunResult {
-            curves: self.curves,
+            curves: self.curves.rows,
             positions: p.mesh.centres.clone(),
-            profiles: self.profiles,
+            profiles: self.profiles.profiles,
             status: self.status,
             drying_time: self.drying_time,
             max_surface_centre_difference: self.max_difference,

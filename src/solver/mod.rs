@@ -12,6 +12,7 @@ mod driver;
 pub mod flux;
 pub mod mesh;
 pub mod model;
+pub mod observe;
 pub mod problem;
 mod schedule;
 pub mod state;
