@@ -64,14 +64,36 @@ fn likely_unit_slips_are_warned_at_their_cells() {
 }
 
 #[test]
+fn moistures_all_typed_as_fractions_are_warned() {
+    // Initial 0.6 and until 0.3 (meant: 60 % and 30 %): the level asks to dry, but the air
+    // (50 C, 40 % RH; GAB equilibrium about 9.8 %) would wet a product at 0.6 %.
+    let csv = case("m,5,0.6", "first,,50,40,1e-7\n", "");
+    let csv = csv.replace(
+        "step,hours,dry_bulb_c,rh_pct,surface_coef_m_s\nfirst,,",
+        "step,until_moisture_pct,dry_bulb_c,rh_pct,surface_coef_m_s\nfirst,0.3,",
+    );
+    let (_, w) = warnings_of(&csv);
+    assert!(
+        has(&w, "layers!C5: initial_moisture_pct is 0.6 %", "fractions"),
+        "{w:?}"
+    );
+}
+
+#[test]
 fn plausible_values_give_no_such_warning() {
     // The same case with the units right: 60 C, 85 %, 5 mm, 60 %; and a genuinely dry
-    // product dried further (1.5 % to 1 %) is no slip either.
-    for (layer, target) in [
-        ("m,5,60", "target_moisture_pct,8\n"),
-        ("m,5,1.5", "target_moisture_pct,1\n"),
+    // product dried further (1.5 % to 1 %) in air dry enough to do it (1.5 % RH: the GAB
+    // equilibrium is about 0.76 %) is no slip either.
+    let usual = "warm,10,60,40,1e-7\nhumid,,50,0.85e2,1e-7\n";
+    for (layer, schedule, target) in [
+        ("m,5,60", usual, "target_moisture_pct,8\n"),
+        (
+            "m,5,1.5",
+            "desiccant,,60,1.5,1e-7\n",
+            "target_moisture_pct,1\n",
+        ),
     ] {
-        let csv = case(layer, "warm,10,60,40,1e-7\nhumid,,50,0.85e2,1e-7\n", target);
+        let csv = case(layer, schedule, target);
         let (_, w) = warnings_of(&csv);
         assert!(
             !w.iter()

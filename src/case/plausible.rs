@@ -27,6 +27,27 @@ fn kelvin(column: &str, value: f64) -> String {
 }
 
 impl Case {
+    /// Whether every schedule step's air drives the exposed surface above moisture `x` (dry
+    /// fraction), where that equilibrium is known for at least one step.
+    fn air_wets_everywhere(&self, x: f64) -> bool {
+        let Some(material) = self.exposed_materials().first().copied() else {
+            return false;
+        };
+        let equilibria: Vec<f64> = self
+            .schedule
+            .iter()
+            .filter_map(|s| match s.exchange {
+                super::Exchange::FixedSurface(xs) => Some(xs),
+                _ => s.equilibrium_moisture.or_else(|| {
+                    let rh = s.relative_humidity()?;
+                    material.isotherm.equilibrium_moisture(rh, s.dry_bulb_c)
+                }),
+            })
+            .filter(|e| e.is_finite())
+            .collect();
+        !equilibria.is_empty() && equilibria.iter().all(|&e| e > x)
+    }
+
     /// Values that pass validation but look like a slipped unit, each with its place.
     pub fn plausibility(&self) -> Vec<Problem> {
         let mut out = Vec::new();
@@ -73,6 +94,22 @@ impl Case {
                         "initial_moisture_pct is {} %, below {DRY_PCT} % while a target or \
                          until_moisture_pct above it is given: was a fraction typed for a \
                          percentage (0.6 for 60 %)?",
+                        compact(initial)
+                    ),
+                );
+            } else if initial < DRY_PCT
+                && !levels.is_empty()
+                && levels.iter().all(|&l| l < initial)
+                && self.air_wets_everywhere(layer.initial_moisture)
+            {
+                // The levels ask to dry, but every step's air would wet the product: the
+                // moistures were most likely all typed as fractions (initial 0.6, levels 0.3).
+                warn(
+                    at("initial_moisture_pct"),
+                    format!(
+                        "initial_moisture_pct is {} %, below {DRY_PCT} %, and every step's air \
+                         would wet the product although its levels ask to dry it: were \
+                         fractions typed for percentages (0.6 for 60 %)?",
                         compact(initial)
                     ),
                 );
