@@ -133,3 +133,19 @@ fn a_target_below_the_reachable_equilibrium_is_warned_with_that_equilibrium() {
     assert_eq!(status, "ok");
     assert!(!w.iter().any(|x| x.contains("equilibrium")), "{w:?}");
 }
+
+#[test]
+fn a_profile_list_split_by_csv_commas_is_warned() {
+    // `profile_hours,0,1,2` in a CSV: only 0 reaches column B; 1 and 2 land in the notes.
+    let csv = case("m,5,60", "warm,,60,40,1e-7\n", "profile_hours,0,1,2\n");
+    let (_, w) = warnings_of(&csv);
+    assert!(has(&w, "case!C3: profile_hours goes on", "quoted"), "{w:?}");
+    // Quoted, the list is one cell and nothing is said.
+    let csv = case(
+        "m,5,60",
+        "warm,,60,40,1e-7\n",
+        "profile_hours,\"0, 1, 2\"\n",
+    );
+    let (_, w) = warnings_of(&csv);
+    assert!(!w.iter().any(|x| x.contains("profile_hours")), "{w:?}");
+}

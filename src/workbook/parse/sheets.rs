@@ -149,6 +149,22 @@ impl<'b> KeySheet<'b> {
                             );
                         } else {
                             entries.insert(k, (row.row, value));
+                            // In a CSV, `profile_hours,0,24,72` splits the list at its commas:
+                            // the later times land in the notes columns.
+                            let numeric = match row.get(2) {
+                                RawValue::Number(_) => true,
+                                RawValue::Text(t) => t.trim().parse::<f64>().is_ok(),
+                                _ => false,
+                            };
+                            if *k == "profile_hours" && numeric {
+                                ctx.warn(
+                                    &cell_loc(&sheet.name, found.order, row.row, 2),
+                                    "profile_hours goes on past column B (a CSV line splits the \
+                                     list at its commas): only column B was read; put the whole \
+                                     list in one cell, quoted in a CSV (\"0, 24, 72\") or with \
+                                     semicolons (0; 24; 72)",
+                                );
+                            }
                         }
                     }
                     None => ctx.warn(
