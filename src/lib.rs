@@ -12,6 +12,7 @@ pub mod analytic;
 pub mod case;
 pub mod check;
 pub mod cli;
+pub mod fit;
 pub mod limits;
 pub mod physics;
 pub mod pipeline;
