@@ -986,6 +986,81 @@ fn print_table(ws: &mut Worksheet) -> Result<(), XlsxError> {
     Ok(())
 }
 
+/// The thin-layer drying models fitted to the measured moisture ratio (t in hours, MR with the
+/// first step's equilibrium), best first, then the slope method's diffusivity (format 1.1).
+/// Returns the last row written.
+fn drying_model_table(
+    ws: &mut Worksheet,
+    r: &ResultInput<'_>,
+    f: &Formats,
+    mut row: u32,
+) -> Result<u32, XlsxError> {
+    use crate::analytic::Shape;
+    use crate::case::{Exposed, Geometry};
+    let case = r.case;
+    let x0 = case
+        .layers
+        .iter()
+        .map(|l| l.initial_moisture)
+        .fold(0.0, f64::max);
+    let x0 = r.run.curves.first().map_or(x0, |c| c.mean);
+    let x_eq = r.run.curves.first().and_then(|c| c.equilibrium);
+    let (mut t_h, mut mr) = (Vec::new(), Vec::new());
+    if let Some(x_eq) = x_eq.filter(|e| (x0 - e).abs() > 1e-12) {
+        for m in r.measured {
+            if let Some(x) = case.basis.to_dry_fraction(m.moisture_pct) {
+                t_h.push(m.hours);
+                mr.push((x - x_eq) / (x0 - x_eq));
+            }
+        }
+    }
+    let fits = crate::fit::fit_drying_models(&t_h, &mr);
+    let headers = [
+        "drying_model",
+        "k_per_h",
+        "n",
+        "a",
+        "c",
+        "r2",
+        "rmse",
+        "reduced_chi_square",
+    ];
+    for (c, h) in headers.iter().enumerate() {
+        ws.write_string_with_format(row, c as u16, *h, &f.header)?;
+    }
+    for fit in &fits {
+        row += 1;
+        ws.write_string(row, 0, fit.model.name())?;
+        let values = [
+            Some(fit.k_per_h),
+            fit.n,
+            fit.a,
+            fit.c,
+            fit.goodness.r2,
+            Some(fit.goodness.rmse),
+            fit.goodness.reduced_chi_square,
+        ];
+        for (c, v) in values.iter().enumerate() {
+            // k, n, a, c to four significant figures' worth; the statistics can be tiny.
+            let format = if c < 4 { &f.number } else { &f.small };
+            opt_number(ws, row, c as u16 + 1, v.filter(|x| x.is_finite()), format)?;
+        }
+    }
+    let (shape, length) = match (case.geometry, case.exposed) {
+        (Geometry::Slab, Exposed::Both) => (Shape::Slab, 0.5 * case.total_thickness()),
+        (Geometry::Slab, _) => (Shape::Slab, case.total_thickness()),
+        (Geometry::Cylinder, _) => (Shape::Cylinder, case.total_thickness()),
+        (Geometry::Sphere, _) => (Shape::Sphere, case.total_thickness()),
+    };
+    let t_s: Vec<f64> = t_h.iter().map(|h| h * 3600.0).collect();
+    let d_eff = crate::fit::slope_method(shape, length, &t_s, &mr);
+    row += 2;
+    ws.write_string(row, 0, "slope_method_d_eff_m2_s")?;
+    opt_number(ws, row, 1, d_eff.filter(|d| d.is_finite()), &f.small)?;
+    ws.write_string(row, 2, "m²/s")?;
+    Ok(row)
+}
+
 fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
     ws.set_name("fit")?;
     print_table(ws)?;
@@ -1000,8 +1075,11 @@ fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(),
     ws.write_string(
         row,
         0,
-        "No parameter is estimated in this version; below, the model against the measured points.",
+        "No parameter is estimated in this version; below, the drying-model fits and the model \
+         against the measured points.",
     )?;
+    row += 2;
+    row = drying_model_table(ws, r, f, row)?;
     row += 2;
     let start = row;
     for (c, h) in [
