@@ -1110,25 +1110,21 @@ fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(),
     let n = residuals.len();
     if n > 0 {
         let nf = n as f64;
-        let sse: f64 = residuals.iter().map(|e| e * e).sum();
-        let mean = measured_values.iter().sum::<f64>() / nf;
-        let sst: f64 = measured_values
+        let model_values: Vec<f64> = measured_values
             .iter()
-            .map(|v| (v - mean) * (v - mean))
-            .sum();
+            .zip(&residuals)
+            .map(|(m, e)| m + e)
+            .collect();
+        let g = crate::fit::goodness(&measured_values, &model_values, 0);
         let stats: [(&str, Option<f64>, &str); 4] = [
             ("points_compared", Some(nf), ""),
-            ("rmse_pct", Some((sse / nf).sqrt()), basis_unit(r.case)),
+            ("rmse_pct", Some(g.rmse), basis_unit(r.case)),
             (
                 "bias_pct",
                 Some(residuals.iter().sum::<f64>() / nf),
                 "model - measured",
             ),
-            (
-                "r_squared",
-                (sst > 0.0).then(|| 1.0 - sse / sst),
-                "1 - SSE/SST",
-            ),
+            ("r_squared", g.r2, "1 - SSE/SST"),
         ];
         let col = 6;
         ws.write_string_with_format(start, col, "goodness_of_fit", &f.header)?;
