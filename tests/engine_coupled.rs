@@ -3,7 +3,9 @@
 //! conservation, and the isothermal engine as the limit of very large k and h.
 
 use dampfront::analytic::{Shape, conduction_centre_ratio};
-use dampfront::case::{Case, Coupling, Exchange, Exposed, Geometry, Humidity, Material, Step};
+use dampfront::case::{
+    Case, Coupling, Exchange, Exposed, Geometry, Humidity, Material, Place, Step,
+};
 use dampfront::physics::psychro::{latent_heat_j_kg, saturation_pressure_pa, vapour_density_kg_m3};
 use dampfront::physics::transfer::{air_properties, flat_plate_heat_coef, flat_plate_mass_coef};
 use dampfront::physics::{Diffusivity, Isotherm, STANDARD_PRESSURE_PA};
@@ -196,7 +198,8 @@ fn with_an_air_velocity_the_wet_slab_settles_where_the_correlations_put_it() {
 
 #[test]
 fn very_large_k_and_h_reproduce_the_isothermal_engine() {
-    let mut m = thermal_material(500.0, 2e-10, 1e4, 1500.0);
+    // The largest values the plausibility ranges accept: k 500 W/(m K), h 1e5 W/(m2 K).
+    let mut m = thermal_material(500.0, 2e-10, 500.0, 1500.0);
     m.isotherm = Isotherm::Oswin { a: 0.12, b: 0.5 };
     m.diffusivity = Diffusivity {
         activation_energy_j_mol: 30_000.0,
@@ -208,7 +211,7 @@ fn very_large_k_and_h_reproduce_the_isothermal_engine() {
         Humidity::Relative(0.3),
         Exchange::SurfaceCoefficient(5e-8),
     );
-    step.heat_coef = Some(1e7);
+    step.heat_coef = Some(1e5);
     let mut iso = Case::single_layer(
         Geometry::Slab,
         Exposed::A,
@@ -259,4 +262,32 @@ fn hotter_air_dries_an_arrhenius_material_faster() {
     };
     let (cool, hot) = (mean_after(40.0), mean_after(70.0));
     assert!(hot < cool - 0.02, "{hot} vs {cool}");
+}
+
+#[test]
+fn implausible_thermal_values_are_refused_at_their_cells() {
+    // A conductivity in mW/(m K), a specific heat in kJ/(kg K), an h of 1e9: unit slips.
+    let mut m = thermal_material(500.0, 1e-9, 150.0e3, 1.5);
+    m.isotherm = Isotherm::Oswin { a: 0.1, b: 0.5 };
+    let mut step = Step::constant(60.0, Humidity::Relative(0.3), Exchange::AirSide(0.02));
+    step.heat_coef = Some(1e9);
+    let mut case = Case::single_layer(Geometry::Slab, Exposed::A, m, 0.01, 0.5, vec![step], 3600.0);
+    case.coupling = Coupling::HeatAndMoisture;
+    let problems = case.validate();
+    for column in ["conductivity_w_mk", "specific_heat_j_kgk"] {
+        assert!(
+            problems
+                .iter()
+                .any(|p| p.place == Place::Material { index: 0, column }),
+            "{column}: {problems:?}"
+        );
+    }
+    assert!(
+        problems.iter().any(|p| p.place
+            == Place::Step {
+                index: 0,
+                column: "h_w_m2k"
+            }),
+        "{problems:?}"
+    );
 }

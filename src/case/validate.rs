@@ -292,6 +292,19 @@ fn check_coupled(case: &Case, c: &mut Checker) {
                 "h_w_m2k",
                 h,
             );
+            // Free convection in still air is about 2 W/(m2 K), condensing steam about 1e5
+            // (common practice); beyond those a unit slip is likelier than a dryer.
+            c.within(
+                Place::Step {
+                    index: i,
+                    column: "h_w_m2k",
+                },
+                "h_w_m2k",
+                h,
+                0.1,
+                1e5,
+                "W/(m2 K)",
+            );
         }
     }
 }
@@ -343,9 +356,28 @@ fn check_materials(case: &Case, c: &mut Checker) {
         isotherm_ranges(&m.isotherm, c, &at);
         if let Some(k) = m.conductivity {
             c.positive(at("conductivity_w_mk"), "conductivity_w_mk", k);
+            // Plausibility (common practice): still air 0.026 W/(m K) and copper 400 bound
+            // every product; outside that, a unit slip (mW, or W/(cm K)).
+            c.within(
+                at("conductivity_w_mk"),
+                "conductivity_w_mk",
+                k,
+                0.01,
+                500.0,
+                "W/(m K)",
+            );
         }
         if let Some(cp) = m.specific_heat {
             c.positive(at("specific_heat_j_kgk"), "specific_heat_j_kgk", cp);
+            // Dry solids lie near 500-2500 J/(kg K) (common practice); kJ typed for J is 1000x.
+            c.within(
+                at("specific_heat_j_kgk"),
+                "specific_heat_j_kgk",
+                cp,
+                100.0,
+                10_000.0,
+                "J/(kg K)",
+            );
         }
     }
 }
