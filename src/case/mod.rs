@@ -5,8 +5,11 @@
 //! at the edge. [`Case::validate`] returns every problem it finds as values, each with a
 //! [`Place`] that the workbook layer turns into a sheet and cell.
 
+mod measured;
 mod plausible;
 mod validate;
+
+pub use measured::Measured;
 
 pub use plausible::{DRY_PCT, HOT_C, LOW_RH, THIN_M};
 
