@@ -384,12 +384,18 @@ impl Pipeline {
         warnings.extend(target_warning);
         warnings.extend(run.warnings.iter().cloned());
         let check = check::series_check(case, &run);
+        let budget = crate::fit::Budget {
+            cancel: Some(cancel),
+            deadline,
+        };
+        let fit_report = parsed.fit_report(&run, budget);
         let bytes = write::result_workbook(&write::ResultInput {
             case,
             run: &run,
             warnings: &warnings,
             inputs: &parsed.inputs,
             measured: &parsed.measured,
+            fit: fit_report.as_ref(),
             check: check.as_ref(),
             input_sha256: &sha,
         });

@@ -262,7 +262,7 @@ fn unknown_sheets_keys_and_columns_are_warnings() {
     assert!(w.iter().any(|w| w.starts_with("notes: ")), "{w:#?}");
     assert!(
         w.iter()
-            .any(|w| w.starts_with("fit: ") && w.contains("not available")),
+            .any(|w| w.starts_with("fit: ") && w.contains("no measured sheet")),
         "{w:#?}"
     );
     assert!(

@@ -122,6 +122,7 @@ fn randomly_damaged_cases_are_refused_or_solved_without_panicking() {
                     warnings: &parsed.warnings,
                     inputs: &parsed.inputs,
                     measured: &parsed.measured,
+                    fit: None,
                     check: None,
                     input_sha256: "",
                 });

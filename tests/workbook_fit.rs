@@ -77,3 +77,155 @@ fn measured_points_get_ranked_drying_models_and_the_slope_method_diffusivity() {
     let got = num(&slope[1]);
     assert!((got - d).abs() <= 0.01 * d, "{got}");
 }
+
+/// A slab case as CSV with `measured` points from Crank's series (eq. 4.18, D 1e-9 m²/s,
+/// l 10 mm), the material's D given as `d_input`, and the `fit` sheet's rows.
+fn lab_csv(d_input: f64, points: &[(f64, f64)], fit: &str) -> String {
+    let mut measured = String::from("[measured]\nhours,moisture_pct\n");
+    for (h, m) in points {
+        measured.push_str(&format!("{h},{m}\n"));
+    }
+    format!(
+        "[case]\nend_hours,80\n\
+         [layers]\nmaterial,thickness_mm,initial_moisture_pct\nm,10,60\n\
+         [materials]\nmaterial,dry_density_kg_m3,d_ref_m2_s\nm,500,{d_input}\n\
+         [schedule]\nstep,dry_bulb_c,surface_moisture_pct\nheld,30,10\n{measured}{fit}"
+    )
+}
+
+/// Hours and moisture %.
+type Point = (f64, f64);
+
+fn series_points() -> Vec<(f64, f64)> {
+    // Crank (1975) eq. 4.18: the mean of a sheet with a fixed surface, D 1e-9 m²/s, l 10 mm.
+    let series = Series::new(Shape::Slab, Surface::Fixed);
+    (1..=40)
+        .map(|i| {
+            let hours = 2.0 * i as f64;
+            let mr = series.moisture_ratio(1e-9 * hours * 3600.0 / (0.01 * 0.01));
+            (hours, 100.0 * (0.1 + mr * 0.5))
+        })
+        .collect()
+}
+
+/// Solves `csv` and returns the result's `fit` sheet as rows.
+fn fit_rows(csv: &str, label: &str) -> Vec<Vec<Data>> {
+    let dir = scratch();
+    std::fs::write(dir.path().join("lab.csv"), csv).expect("written");
+    let out = run_in(dir.path(), &["solve", "lab.csv"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    keep_outputs(dir.path(), label);
+    let fit = sheet(&dir.path().join("lab.result.xlsx"), "fit");
+    let rows: Vec<Vec<Data>> = fit.rows().map(|r| r.to_vec()).collect();
+    for r in &rows {
+        for c in r {
+            if let Data::Float(v) = c {
+                assert!(v.is_finite(), "{r:?}");
+            }
+            assert!(!text(c).contains("NaN"), "{r:?}");
+        }
+    }
+    rows
+}
+
+fn messages(rows: &[Vec<Data>]) -> Vec<String> {
+    rows.iter()
+        .filter(|r| r.first().map(text).as_deref() == Some("message"))
+        .map(|r| text(&r[1]))
+        .collect()
+}
+
+#[test]
+fn a_fit_sheet_estimates_d_from_the_measured_points() {
+    // The input's D is 3 times too small; the estimate must come back to 1e-9 (the engine at
+    // the default mesh is within 1e-3 in moisture ratio of the series, so 1 %).
+    let rows = fit_rows(
+        &lab_csv(3.3e-10, &series_points(), "[fit]\nparameters,d_ref\n"),
+        "workbook_fit_estimate",
+    );
+    let header: Vec<String> = rows[0].iter().take(5).map(text).collect();
+    assert_eq!(
+        header,
+        ["parameter", "estimate", "low_95", "high_95", "unit"]
+    );
+    assert_eq!(text(&rows[1][0]), "d_ref_m2_s");
+    let (d, lo, hi) = (num(&rows[1][1]), num(&rows[1][2]), num(&rows[1][3]));
+    assert!((d - 1e-9).abs() <= 0.01e-9, "{d:e}");
+    assert!(lo < d && d < hi, "{lo:e} {d:e} {hi:e}");
+    assert!(rows[2].iter().all(|c| text(c).is_empty()), "an empty row");
+    let m = messages(&rows);
+    assert_eq!(m.len(), 1, "{m:?}");
+    assert!(m[0].contains("converged"), "{m:?}");
+    let corr = rows
+        .iter()
+        .position(|r| r.first().map(text).as_deref() == Some("correlation"))
+        .expect("correlation matrix");
+    assert_eq!(text(&rows[corr][1]), "d_ref_m2_s");
+    assert!((num(&rows[corr + 1][1]) - 1.0).abs() < 1e-12);
+    // The fitted model beside the input's, and its goodness.
+    let table = rows
+        .iter()
+        .position(|r| r.first().map(text).as_deref() == Some("hours"))
+        .expect("comparison table");
+    assert_eq!(text(&rows[table][4]), "fitted_moisture_pct");
+    let fitted_rmse = rows
+        .iter()
+        .find(|r| r.len() > 7 && text(&r[6]) == "fitted_rmse_pct")
+        .map(|r| num(&r[7]))
+        .expect("fitted rmse");
+    assert!(fitted_rmse < 0.05, "{fitted_rmse}");
+}
+
+#[test]
+fn fits_that_cannot_work_say_so_on_the_sheet() {
+    let points = series_points();
+    let flat: Vec<(f64, f64)> = points.iter().map(|&(h, _)| (h, 40.0)).collect();
+    let cases: [(&[Point], &str, &str); 3] = [
+        (&points[..1], "parameters,d_ref", "only 1 measured point"),
+        (&flat, "parameters,d_ref", "the same at every point"),
+        (
+            &points,
+            "parameters,\"d_ref, activation_energy, hm\"",
+            "activation_energy has no influence",
+        ),
+    ];
+    for (i, (pts, fit, says)) in cases.into_iter().enumerate() {
+        // The air is at the material's reference temperature (25 °C by default) for the third.
+        let csv =
+            lab_csv(1e-9, pts, &format!("[fit]\n{fit}\n")).replace("held,30,10", "held,25,10");
+        let rows = fit_rows(&csv, &format!("workbook_fit_cannot_{i}"));
+        let m = messages(&rows);
+        assert!(m.iter().any(|m| m.contains(says)), "{m:?}");
+        if i == 2 {
+            assert!(
+                m.iter()
+                    .any(|m| m.contains("no schedule step gives hm_m_s")),
+                "{m:?}"
+            );
+            // d_ref is still estimated; the others have empty estimates.
+            assert_eq!(text(&rows[1][0]), "d_ref_m2_s");
+            assert!((num(&rows[1][1]) - 1e-9).abs() < 0.01e-9);
+            assert!(text(&rows[2][1]).is_empty() && text(&rows[3][1]).is_empty());
+        } else {
+            assert!(text(&rows[1][1]).is_empty(), "{:?}", rows[1]);
+        }
+    }
+}
+
+#[test]
+fn an_unknown_parameter_is_an_input_problem_at_its_cell() {
+    let csv = lab_csv(
+        1e-9,
+        &series_points(),
+        "[fit]\nparameters,\"d_ref, diffusivity\"\n",
+    );
+    let dir = scratch();
+    std::fs::write(dir.path().join("lab.csv"), csv).expect("written");
+    let out = run_in(dir.path(), &["solve", "lab.csv"]);
+    assert_eq!(out.status.code(), Some(1), "{}", output_text(&out));
+    let text = output_text(&out);
+    assert!(
+        text.contains("fit!B") && text.contains("unknown parameter \"diffusivity\""),
+        "{text}"
+    );
+}

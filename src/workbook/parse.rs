@@ -17,6 +17,7 @@ mod build;
 
 pub(crate) use build::MATERIAL_COLUMNS;
 mod context;
+mod fit_sheet;
 mod sheets;
 
 use std::fmt;
@@ -103,6 +104,8 @@ pub struct Parsed {
     pub warnings: Vec<String>,
     /// Rows of the `measured` sheet, empty when there is none.
     pub measured: Vec<Measured>,
+    /// What the `fit` sheet asks to estimate, when the book has one.
+    pub fit: Option<crate::fit::FitRequest>,
     /// What was read, in SI units, with where it came from.
     pub inputs: Vec<InputRecord>,
 }
@@ -189,12 +192,14 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
     }
     let measured = build::measured(&measured_t, &mut ctx);
 
-    if get("fit").sheet.is_some() {
-        ctx.warn(
-            &sheet_loc("fit", get("fit")),
-            "parameter estimation is not available in this version; the sheet was not used",
-        );
-    }
+    let first_material = layers.first().map(|l| l.material);
+    let fit = fit_sheet::read(
+        get("fit"),
+        &names,
+        first_material,
+        !measured.is_empty(),
+        &mut ctx,
+    );
     if get("variants").sheet.is_some() {
         ctx.warn(
             &sheet_loc("variants", get("variants")),
@@ -289,6 +294,7 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
             })
             .collect(),
         measured,
+        fit,
         inputs: ctx.records,
     })
 }

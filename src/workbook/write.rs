@@ -20,6 +20,9 @@ use crate::text::compact;
 
 use super::parse::{InputProblem, InputRecord, InputValue, Measured};
 
+#[path = "write_fit.rs"]
+mod write_fit;
+
 /// Cautions shown in the README and on every summary sheet.
 pub const CAUTIONS: [&str; 4] = [
     "Model results are estimates: check them against measurements of your own product and equipment before relying on them.",
@@ -40,6 +43,9 @@ pub struct ResultInput<'a> {
     pub inputs: &'a [InputRecord],
     /// Measured points, if any.
     pub measured: &'a [Measured],
+    /// What the `fit` sheet shows, computed by [`crate::fit::report`]; where it is `None` and
+    /// there are measured points, the report is made here without an estimation.
+    pub fit: Option<&'a crate::fit::FitReport>,
     /// Series comparison, where the case has one.
     pub check: Option<&'a CheckTable>,
     /// SHA-256 of the input file's bytes, hex.
@@ -130,7 +136,7 @@ pub fn result_workbook(r: &ResultInput<'_>) -> Result<Vec<u8>, XlsxError> {
     steps_sheet(&mut wb, r, &f)?;
     profiles_sheet(&mut wb, r, &f)?;
     if !r.measured.is_empty() {
-        fit_sheet(wb.add_worksheet(), r, &f)?;
+        write_fit::fit_sheet(wb.add_worksheet(), r, &f)?;
     }
     if let Some(check) = r.check {
         check_sheet(wb.add_worksheet(), r.case, check, &f)?;
@@ -960,182 +966,11 @@ fn check_sheet(
     Ok(())
 }
 
-/// The model's mean moisture (basis %) at `hours`, by linear interpolation between curve rows.
-fn model_mean_at(case: &Case, run: &RunResult, hours: f64) -> Option<f64> {
-    let t = hours * 3600.0;
-    let rows = &run.curves;
-    let j = rows.partition_point(|r| r.time < t);
-    let value = if j < rows.len() && (rows[j].time - t).abs() <= 1e-9 * t.max(1.0) {
-        rows[j].mean
-    } else if j == 0 || j == rows.len() {
-        return None;
-    } else {
-        let (a, b) = (&rows[j - 1], &rows[j]);
-        a.mean + (b.mean - a.mean) * (t - a.time) / (b.time - a.time)
-    };
-    Some(pct(case, value))
-}
-
-/// The `fit` sheet: the parameter table (no parameter is estimated in this version), then the
-/// model against the measured points with goodness-of-fit figures.
 /// Prints a table sheet one page wide, as many pages tall as it needs, header repeated.
 fn print_table(ws: &mut Worksheet) -> Result<(), XlsxError> {
     ws.set_repeat_rows(0, 0)?;
     ws.set_paper_size(9);
     ws.set_print_fit_to_pages(1, 0);
-    Ok(())
-}
-
-/// The thin-layer drying models fitted to the measured moisture ratio (t in hours, MR with the
-/// first step's equilibrium), best first, then the slope method's diffusivity (format 1.1).
-/// Returns the last row written.
-fn drying_model_table(
-    ws: &mut Worksheet,
-    r: &ResultInput<'_>,
-    f: &Formats,
-    mut row: u32,
-) -> Result<u32, XlsxError> {
-    use crate::analytic::Shape;
-    use crate::case::{Exposed, Geometry};
-    let case = r.case;
-    let x0 = case
-        .layers
-        .iter()
-        .map(|l| l.initial_moisture)
-        .fold(0.0, f64::max);
-    let x0 = r.run.curves.first().map_or(x0, |c| c.mean);
-    let x_eq = r.run.curves.first().and_then(|c| c.equilibrium);
-    let (mut t_h, mut mr) = (Vec::new(), Vec::new());
-    if let Some(x_eq) = x_eq.filter(|e| (x0 - e).abs() > 1e-12) {
-        for m in r.measured {
-            if let Some(x) = case.basis.to_dry_fraction(m.moisture_pct) {
-                t_h.push(m.hours);
-                mr.push((x - x_eq) / (x0 - x_eq));
-            }
-        }
-    }
-    let fits = crate::fit::fit_drying_models(&t_h, &mr);
-    let headers = [
-        "drying_model",
-        "k_per_h",
-        "n",
-        "a",
-        "c",
-        "r2",
-        "rmse",
-        "reduced_chi_square",
-    ];
-    for (c, h) in headers.iter().enumerate() {
-        ws.write_string_with_format(row, c as u16, *h, &f.header)?;
-    }
-    for fit in &fits {
-        row += 1;
-        ws.write_string(row, 0, fit.model.name())?;
-        let values = [
-            Some(fit.k_per_h),
-            fit.n,
-            fit.a,
-            fit.c,
-            fit.goodness.r2,
-            Some(fit.goodness.rmse),
-            fit.goodness.reduced_chi_square,
-        ];
-        for (c, v) in values.iter().enumerate() {
-            // k, n, a, c to four significant figures' worth; the statistics can be tiny.
-            let format = if c < 4 { &f.number } else { &f.small };
-            opt_number(ws, row, c as u16 + 1, v.filter(|x| x.is_finite()), format)?;
-        }
-    }
-    let (shape, length) = match (case.geometry, case.exposed) {
-        (Geometry::Slab, Exposed::Both) => (Shape::Slab, 0.5 * case.total_thickness()),
-        (Geometry::Slab, _) => (Shape::Slab, case.total_thickness()),
-        (Geometry::Cylinder, _) => (Shape::Cylinder, case.total_thickness()),
-        (Geometry::Sphere, _) => (Shape::Sphere, case.total_thickness()),
-    };
-    let t_s: Vec<f64> = t_h.iter().map(|h| h * 3600.0).collect();
-    let d_eff = crate::fit::slope_method(shape, length, &t_s, &mr);
-    row += 2;
-    ws.write_string(row, 0, "slope_method_d_eff_m2_s")?;
-    opt_number(ws, row, 1, d_eff.filter(|d| d.is_finite()), &f.small)?;
-    ws.write_string(row, 2, "m²/s")?;
-    Ok(row)
-}
-
-fn fit_sheet(ws: &mut Worksheet, r: &ResultInput<'_>, f: &Formats) -> Result<(), XlsxError> {
-    ws.set_name("fit")?;
-    print_table(ws)?;
-    let names = |v: &[&str]| v.iter().map(|s| s.to_string()).collect::<Vec<_>>();
-    header_row(
-        ws,
-        0,
-        &names(&["parameter", "estimate", "low_95", "high_95", "unit"]),
-        f,
-    )?;
-    let mut row = 2;
-    ws.write_string(
-        row,
-        0,
-        "No parameter is estimated in this version; below, the drying-model fits and the model \
-         against the measured points.",
-    )?;
-    row += 2;
-    row = drying_model_table(ws, r, f, row)?;
-    row += 2;
-    let start = row;
-    for (c, h) in [
-        "hours",
-        "measured_moisture_pct",
-        "model_moisture_pct",
-        "residual_pct",
-    ]
-    .iter()
-    .enumerate()
-    {
-        ws.write_string_with_format(row, c as u16, *h, &f.header)?;
-    }
-    let mut residuals = Vec::new();
-    let mut measured_values = Vec::new();
-    for m in r.measured {
-        row += 1;
-        ws.write_number_with_format(row, 0, m.hours, &f.hours)?;
-        ws.write_number_with_format(row, 1, m.moisture_pct, &f.number)?;
-        let model = model_mean_at(r.case, r.run, m.hours);
-        opt_number(ws, row, 2, model, &f.number)?;
-        if let Some(model) = model {
-            ws.write_number_with_format(row, 3, model - m.moisture_pct, &f.number)?;
-            residuals.push(model - m.moisture_pct);
-            measured_values.push(m.moisture_pct);
-        }
-    }
-    let n = residuals.len();
-    if n > 0 {
-        let nf = n as f64;
-        let model_values: Vec<f64> = measured_values
-            .iter()
-            .zip(&residuals)
-            .map(|(m, e)| m + e)
-            .collect();
-        let g = crate::fit::goodness(&measured_values, &model_values, 0);
-        let stats: [(&str, Option<f64>, &str); 4] = [
-            ("points_compared", Some(nf), ""),
-            ("rmse_pct", Some(g.rmse), basis_unit(r.case)),
-            (
-                "bias_pct",
-                Some(residuals.iter().sum::<f64>() / nf),
-                "model - measured",
-            ),
-            ("r_squared", g.r2, "1 - SSE/SST"),
-        ];
-        let col = 6;
-        ws.write_string_with_format(start, col, "goodness_of_fit", &f.header)?;
-        ws.set_column_width(col, 20)?;
-        for (i, (key, value, unit)) in stats.into_iter().enumerate() {
-            let rr = start + 1 + i as u32;
-            ws.write_string(rr, col, key)?;
-            opt_number(ws, rr, col + 1, value, &f.number)?;
-            ws.write_string(rr, col + 2, unit)?;
-        }
-    }
     Ok(())
 }
 
