@@ -6,6 +6,10 @@
 
 use rust_xlsxwriter::{DocProperties, ExcelDateTime, Format, Note, Workbook, XlsxError};
 
+#[path = "template_lab.rs"]
+mod lab;
+pub use lab::{LAB_TRUE_BETA, LAB_TRUE_D, lab};
+
 /// A kind of example.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Kind {
