@@ -61,4 +61,7 @@ fn the_lab_demo_is_current_and_its_fit_finds_the_values_it_was_made_with() {
         .map(|r| text(&r[1]))
         .collect();
     println!("{messages:#?}");
+    for key in ["estimation_iterations", "engine_runs"] {
+        println!("{key}: {}", num(&row(key)[1]));
+    }
 }

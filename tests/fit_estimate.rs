@@ -188,6 +188,20 @@ fn fits_that_cannot_work_say_so_without_numbers_that_are_not() {
     says(&e, "activation_energy has no influence");
     assert!(e.parameters[1].estimate.is_none());
     assert!(e.parameters[0].estimate.is_some());
+    // d_ref and an activation energy from one curve at one temperature away from the
+    // reference: both only scale D, so the data cannot tell them apart.
+    let mut away = slab(d, l, 20, vec![held(40.0, None)], 45.0 * 3600.0);
+    away.materials[0].diffusivity.t_ref_c = 60.0;
+    away.materials[0].diffusivity.activation_energy_j_mol = 30_000.0;
+    let e = estimate(&away, &all, &request, Budget::default());
+    assert!(
+        e.messages
+            .iter()
+            .any(|m| m.contains("correlated") || m.contains("cannot separate")),
+        "{:?}",
+        e.messages
+    );
+    says(&e, "");
     // A schedule column no step gives.
     let request = FitRequest {
         parameters: vec![Parameter::AirSideCoef],
