@@ -599,3 +599,25 @@ fn isotherm_parameters_are_required_per_isotherm() {
     let p = ok(&s);
     assert!(p.warnings[0].starts_with("materials!I3: iso_a is not used by isotherm wood"));
 }
+
+#[test]
+fn range_problems_quote_the_value_and_range_in_the_users_unit() {
+    let mut s = minimal_case();
+    // 20000 mm is 20 m: beyond the plausible 10 m (1e-6 to 10 m, the case's guard), shown in
+    // mm as typed (1 m = 1000 mm, SI definition).
+    set(&mut s, "layers", 1, 1, C::N(20000.0));
+    // 2e6 h: beyond the plausible 3.6e9 s = 1e6 h (1 h = 3600 s, SI definition).
+    set(&mut s, "case", 0, 0, C::T("end_hours"));
+    set(&mut s, "case", 0, 1, C::N(2e6));
+    let problems = problems(&s);
+    assert_eq!(
+        at(&problems, "layers", "B2").problem,
+        "thickness_mm 20000 is outside the plausible range 0.001 to 10000 mm"
+    );
+    assert_eq!(
+        at(&problems, "case", "B1").problem,
+        "end_hours 2000000 is outside the plausible range 0.001 to 1000000 h"
+    );
+    // Not said again in SI by the case checks.
+    assert_eq!(problems.len(), 2, "{problems:#?}");
+}

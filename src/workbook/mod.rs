@@ -10,5 +10,6 @@
 pub mod parse;
 pub mod raw;
 pub mod read;
+pub mod schema;
 pub mod template;
 pub mod write;
