@@ -33,6 +33,9 @@ pub struct Pipeline {
     /// Print one JSON object per finished input on standard output (`batch --json`; `solve`
     /// prints its own).
     pub json_lines: bool,
+    /// Threads the variants of a study are solved on, shared by every input this pipeline
+    /// runs (the `--jobs` of batch and watch); `None`: rayon's pool, one thread per core.
+    pub variant_pool: Option<std::sync::Arc<rayon::ThreadPool>>,
 }
 
 /// The outcome of one file, with the problems for the command line to print.
@@ -234,6 +237,21 @@ impl Pipeline {
         }
     }
 
+    /// The same pipeline with the variants of studies solved on `jobs` threads (0: one per
+    /// core), shared by all its inputs. Falls back to rayon's own pool if no pool can be made.
+    pub fn with_jobs(self, jobs: usize) -> Pipeline {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(watch::worker_count(jobs))
+            .thread_name(|i| format!("dampfront-variant-{i}"))
+            .build()
+            .ok()
+            .map(std::sync::Arc::new);
+        Pipeline {
+            variant_pool: pool,
+            ..self
+        }
+    }
+
     fn output(&self, path: PathBuf) -> PathBuf {
         match (&self.out_dir, path.file_name()) {
             (Some(dir), Some(name)) => dir.join(name),
@@ -247,7 +265,8 @@ impl Pipeline {
         let mut written = Written::default();
         let (report, problems) = self.run_inner(input, attempt, cancel, &mut written);
         if report.status == Status::Problems {
-            written.outputs = vec![self.output(watch::errors_path(input))];
+            // A study whose base ran has its result as well as the errors of its bad variants.
+            written.outputs.push(self.output(watch::errors_path(input)));
         }
         FileOutcome {
             report,
@@ -384,15 +403,29 @@ impl Pipeline {
         warnings.extend(target_warning);
         warnings.extend(run.warnings.iter().cloned());
         let check = check::series_check(case, &run);
-        let bytes = write::result_workbook(&write::ResultInput {
-            case,
-            run: &run,
-            warnings: &warnings,
-            inputs: &parsed.inputs,
-            measured: &parsed.measured,
-            check: check.as_ref(),
-            input_sha256: &sha,
-        });
+        let study = self.study(&book, input, &run, case, cancel);
+        if let Some(s) = &study {
+            warnings.extend(s.problems.iter().map(ToString::to_string));
+        }
+        let variants = study
+            .as_ref()
+            .map(|s| crate::workbook::write_variants::Variants {
+                outcomes: &s.outcomes,
+                base_curve: &s.base_curve,
+                basis: write::basis_word(case),
+            });
+        let bytes = write::result_workbook_with(
+            &write::ResultInput {
+                case,
+                run: &run,
+                warnings: &warnings,
+                inputs: &parsed.inputs,
+                measured: &parsed.measured,
+                check: check.as_ref(),
+                input_sha256: &sha,
+            },
+            variants.as_ref(),
+        );
         let result_path = self.output(watch::result_path(input));
         let bytes = match bytes {
             Ok(b) => b,
@@ -442,13 +475,27 @@ impl Pipeline {
                 written.outputs.push(path);
             }
         }
+        written.summary = write::summary_entries(case, &run, &sha);
+        written.warnings = warnings;
+        // Variants that could not run: their problems in an errors workbook beside the result,
+        // and exit code 1, while every variant that ran is in the result.
+        if let Some(s) = study.filter(|s| !s.problems.is_empty()) {
+            let (mut report, problems) = self.fail(input, s.problems);
+            if report.status == Status::Problems {
+                report.detail = format!(
+                    "{} with the variants that ran; {} variant(s) could not run: {}",
+                    result_path.display(),
+                    s.failed,
+                    report.detail
+                );
+            }
+            return (report, problems);
+        }
         // A stale errors workbook from an earlier failure no longer applies.
         let errors = self.output(watch::errors_path(input));
         if errors.exists() {
             let _ = std::fs::remove_file(&errors);
         }
-        written.summary = write::summary_entries(case, &run, &sha);
-        written.warnings = warnings;
         let status = match run.status {
             RunStatus::Ok => Status::Solved,
             RunStatus::TargetNotReached => Status::TargetNotReached,
@@ -506,6 +553,62 @@ pub fn target_warning(case: &Case, p: &Problem) -> Option<String> {
             pct(*eq)
         )
     })
+}
+
+/// A study's variants as solved beside the base case.
+struct Solved {
+    outcomes: Vec<crate::study::run::Outcome>,
+    base_curve: Vec<(f64, f64)>,
+    /// Problems of the variants that could not run, at their variants cells.
+    problems: Vec<InputProblem>,
+    /// How many variants could not run.
+    failed: usize,
+}
+
+impl Pipeline {
+    /// Solves the variants of the book's `variants` sheet, if it has one.
+    fn study(
+        &self,
+        book: &crate::workbook::raw::RawBook,
+        input: &Path,
+        run: &solver::RunResult,
+        case: &Case,
+        cancel: &AtomicBool,
+    ) -> Option<Solved> {
+        use crate::study::{self, Status as V};
+        let s = study::read(book)?;
+        let budget = study::run::Budget {
+            cancel: Some(cancel),
+            case_seconds: self.case_seconds,
+        };
+        let outcomes = study::run::solve_all(
+            book,
+            &s,
+            &file_stem(input),
+            budget,
+            self.variant_pool.as_deref(),
+        );
+        let bad: Vec<&study::run::Outcome> = outcomes
+            .iter()
+            .filter(|o| matches!(o.status, V::InputError | V::SolverError))
+            .collect();
+        let problems = bad
+            .iter()
+            .flat_map(|o| o.problems.iter().cloned())
+            .collect();
+        let failed = bad.len();
+        let base_curve = run
+            .curves
+            .iter()
+            .map(|r| (r.time / 3600.0, case.basis.from_dry_fraction(r.mean)))
+            .collect();
+        Some(Solved {
+            outcomes,
+            base_curve,
+            problems,
+            failed,
+        })
+    }
 }
 
 /// What a run wrote, for the command line's answer.

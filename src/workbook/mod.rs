@@ -13,3 +13,4 @@ pub mod read;
 pub mod schema;
 pub mod template;
 pub mod write;
+pub mod write_variants;

@@ -181,13 +181,7 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
             "parameter estimation is not available in this version; the sheet was not used",
         );
     }
-    if get("variants").sheet.is_some() {
-        ctx.warn(
-            &sheet_loc("variants", get("variants")),
-            "parameter studies are not available in this version; the sheet was not used and \
-             only the base case runs",
-        );
-    }
+    // The `variants` sheet is read by `crate::study`, on the raw cells.
 
     let case = Case {
         layers,

@@ -122,6 +122,14 @@ fn opt_number(
 
 /// Builds the result workbook.
 pub fn result_workbook(r: &ResultInput<'_>) -> Result<Vec<u8>, XlsxError> {
+    result_workbook_with(r, None)
+}
+
+/// Builds the result workbook, with the `variants` and `variant_curves` sheets of a study.
+pub fn result_workbook_with(
+    r: &ResultInput<'_>,
+    variants: Option<&super::write_variants::Variants<'_>>,
+) -> Result<Vec<u8>, XlsxError> {
     let mut wb = Workbook::new();
     wb.set_properties(&properties(&r.case.title)?);
     let f = Formats::new();
@@ -134,6 +142,9 @@ pub fn result_workbook(r: &ResultInput<'_>) -> Result<Vec<u8>, XlsxError> {
     }
     if let Some(check) = r.check {
         check_sheet(wb.add_worksheet(), r.case, check, &f)?;
+    }
+    if let Some(v) = variants {
+        super::write_variants::add_sheets(&mut wb, v)?;
     }
     input_sheet(wb.add_worksheet(), r, &f)?;
     wb.save_to_buffer()
@@ -764,7 +775,8 @@ fn chart_text(text: &str) -> String {
     }
 }
 
-fn basis_word(case: &Case) -> &'static str {
+/// `dry basis` or `wet basis`.
+pub fn basis_word(case: &Case) -> &'static str {
     match case.basis {
         MoistureBasis::Dry => "dry basis",
         MoistureBasis::Wet => "wet basis",
