@@ -13,7 +13,7 @@ pub enum Kind {
     Wood,
     /// Apple slices in a tray dryer with a given air velocity.
     Food,
-    /// A clay tile under a ramped schedule.
+    /// A clay tile under a ramped schedule, with a parameter study (`variants`).
     Clay,
     /// The smallest runnable case: one layer, constant D, fixed surface (has a series check).
     Blank,
@@ -107,6 +107,12 @@ fn table(name: &str, headers: &[&str], rows: Vec<Vec<Cell>>) -> Sheet {
 
 /// A header's note: the schema's, written once for parser, templates and docs.
 fn column_meaning(header: &str) -> Option<&'static str> {
+    if header.contains('.') {
+        return Some(
+            "the input this column replaces in each variant: SHEET.COLUMN[ROW] (ROW counts data \
+             rows from 1, * is every row) or case.KEY; an empty cell keeps the base value",
+        );
+    }
     super::schema::note(header)
 }
 
@@ -415,6 +421,41 @@ fn clay() -> Vec<Sheet> {
                 vec![t("hold humid"), n(6.0), n(25.0), n(85.0), n(0.005), t("no")],
                 vec![t("ramp up"), n(24.0), n(60.0), n(30.0), n(0.005), t("yes")],
                 vec![t("dry"), Cell::Empty, n(60.0), n(30.0), n(0.005), t("no")],
+            ],
+        ),
+        // A parameter study: each row runs as a case of its own beside the base case above.
+        table(
+            "variants",
+            &[
+                "variant",
+                "layers.thickness_mm[1]",
+                "schedule.dry_bulb_c[2]",
+                "schedule.dry_bulb_c[3]",
+                "schedule.hm_m_s[*]",
+            ],
+            vec![
+                vec![
+                    t("thinner tile"),
+                    n(8.0),
+                    Cell::Empty,
+                    Cell::Empty,
+                    Cell::Empty,
+                ],
+                vec![
+                    t("thicker tile"),
+                    n(16.0),
+                    Cell::Empty,
+                    Cell::Empty,
+                    Cell::Empty,
+                ],
+                vec![t("hotter air"), Cell::Empty, n(70.0), n(70.0), Cell::Empty],
+                vec![
+                    t("faster air"),
+                    Cell::Empty,
+                    Cell::Empty,
+                    Cell::Empty,
+                    n(0.01),
+                ],
             ],
         ),
     ]
