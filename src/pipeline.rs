@@ -597,11 +597,10 @@ impl Pipeline {
             .flat_map(|o| o.problems.iter().cloned())
             .collect();
         let failed = bad.len();
-        let base_curve = run
-            .curves
-            .iter()
-            .map(|r| (r.time / 3600.0, case.basis.from_dry_fraction(r.mean)))
-            .collect();
+        let base_curve = study::run::thin(
+            study::run::mean_curve(case, run),
+            crate::limits::MAX_VARIANT_CURVE_POINTS,
+        );
         Some(Solved {
             outcomes,
             base_curve,

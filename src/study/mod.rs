@@ -224,12 +224,19 @@ pub fn read(book: &RawBook) -> Option<Study> {
         .collect();
     let mut variants = Vec::new();
     for row in rows {
-        let overrides: Vec<Override> = paths
+        // A value under no header is kept with an empty path: the variant then says so at
+        // its cell rather than running without it.
+        let overrides: Vec<Override> = row
+            .cells
             .iter()
-            .filter(|(c, _)| !row.get(*c).is_blank())
-            .map(|(c, path)| Override {
-                path: path.clone(),
-                value: row.get(*c).clone(),
+            .filter(|(c, v)| Some(*c) != name_col && !v.is_blank())
+            .map(|(c, v)| Override {
+                path: paths
+                    .iter()
+                    .find(|(pc, _)| pc == c)
+                    .map(|(_, p)| p.clone())
+                    .unwrap_or_default(),
+                value: v.clone(),
                 cell: a1(row.row, *c),
             })
             .collect();
@@ -336,10 +343,25 @@ pub fn apply(
         problems.push(InputProblem {
             sheet: study.sheet.clone(),
             cell: cell.to_string(),
-            problem: format!("{}: {text}", path.trim()),
+            problem: if path.trim().is_empty() {
+                text
+            } else {
+                format!("{}: {text}", path.trim())
+            },
         });
     };
     for o in &v.overrides {
+        if o.path.trim().is_empty() {
+            problem(
+                &o.cell,
+                "",
+                String::from(
+                    "a value under a column with no path in the header row; give its path \
+                     (such as layers.thickness_mm[1]) or delete the value",
+                ),
+            );
+            continue;
+        }
         let target = match parse_path(&o.path) {
             Ok(t) => t,
             Err(e) => {
@@ -514,5 +536,90 @@ mod tests {
             let e = parse_path(path).unwrap_err();
             assert!(e.contains(says), "{path}: {e}");
         }
+    }
+
+    fn text(s: &str) -> RawValue {
+        RawValue::Text(s.to_string())
+    }
+
+    fn sheet(name: &str, rows: &[&[RawValue]]) -> RawSheet {
+        RawSheet::from_cells(
+            name,
+            rows.iter().enumerate().flat_map(|(r, row)| {
+                row.iter()
+                    .enumerate()
+                    .map(move |(c, v)| (r as u32, c as u32, v.clone()))
+            }),
+        )
+    }
+
+    fn base(variants: &[&[RawValue]]) -> RawBook {
+        let n = RawValue::Number;
+        RawBook {
+            sheets: vec![
+                sheet("Case", &[&[text("end_hours"), n(10.0)]]),
+                sheet(
+                    "layers",
+                    &[
+                        &[text("material"), text("thickness_mm")],
+                        &[text("a"), n(5.0)],
+                        &[text("b"), n(6.0)],
+                    ],
+                ),
+                sheet("variants", variants),
+            ],
+        }
+    }
+
+    #[test]
+    fn values_go_into_their_cells_adding_keys_and_columns() {
+        let n = RawValue::Number;
+        let book = base(&[
+            &[
+                text("variant"),
+                text("layers.thickness_mm[*]"),
+                text("case.target_moisture_pct"),
+                text("layers.initial_temp_c[2]"),
+            ],
+            &[text("v"), n(9.0), n(12.0), n(30.0)],
+        ]);
+        let study = read(&book).unwrap();
+        let v = &study.variants[0];
+        assert_eq!(
+            v.overrides_text(),
+            "layers.thickness_mm[*]=9; case.target_moisture_pct=12; layers.initial_temp_c[2]=30"
+        );
+        let (out, moved) = apply(&book, &study, v).unwrap();
+        assert!(out.sheet("variants").is_none());
+        let layers = out.sheet("layers").unwrap();
+        assert_eq!(layers.get(1, 1).0, &n(9.0));
+        assert_eq!(layers.get(2, 1).0, &n(9.0));
+        // initial_temp_c was not in the header: a new column C.
+        assert_eq!(layers.get(0, 2).0, &text("initial_temp_c"));
+        assert_eq!(layers.get(2, 2).0, &n(30.0));
+        let case = out.sheet("case").unwrap();
+        assert_eq!(case.get(1, 0).0, &text("target_moisture_pct"));
+        assert_eq!(case.get(1, 1).0, &n(12.0));
+        // Both rows of the [*] path came from B2 of the variants sheet.
+        for cell in ["B2", "B3"] {
+            assert_eq!(
+                moved[&("layers".to_string(), cell.to_string())],
+                ("B2".to_string(), "layers.thickness_mm[*]".to_string())
+            );
+        }
+    }
+
+    #[test]
+    fn a_value_without_a_path_is_a_problem_at_its_cell() {
+        let n = RawValue::Number;
+        let book = base(&[
+            &[text("variant"), text("layers.thickness_mm[1]")],
+            &[text("v"), n(9.0), n(3.0)],
+        ]);
+        let study = read(&book).unwrap();
+        let problems = apply(&book, &study, &study.variants[0]).unwrap_err();
+        assert_eq!(problems.len(), 1);
+        assert_eq!(problems[0].cell, "C2");
+        assert!(problems[0].problem.contains("no path"), "{problems:?}");
     }
 }

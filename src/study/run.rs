@@ -7,7 +7,9 @@ use std::time::{Duration, Instant};
 use rayon::prelude::*;
 
 use super::{Status, Study, Variant};
-use crate::solver::{self, Problem, RunControl, RunStatus};
+use crate::case::Case;
+use crate::limits::{MAX_VARIANT_CURVE_POINTS, MAX_VARIANTS};
+use crate::solver::{self, Problem, RunControl, RunResult, RunStatus};
 use crate::workbook::parse::InputProblem;
 use crate::workbook::raw::RawBook;
 use crate::workbook::write::{SummaryValue, summary_entries};
@@ -59,7 +61,14 @@ pub fn solve_all(
         study
             .variants
             .par_iter()
-            .map(|v| solve_one(base, study, v, default_title, budget))
+            .enumerate()
+            .map(|(i, v)| {
+                if i < MAX_VARIANTS {
+                    solve_one(base, study, v, default_title, budget)
+                } else {
+                    too_many(study, v, i)
+                }
+            })
             .collect()
     };
     match pool {
@@ -68,14 +77,25 @@ pub fn solve_all(
     }
 }
 
-fn solve_one(
-    base: &RawBook,
-    study: &Study,
-    v: &Variant,
-    default_title: &str,
-    budget: Budget<'_>,
-) -> Outcome {
-    let mut out = Outcome {
+/// A variant beyond [`MAX_VARIANTS`]: not run, said at its row.
+fn too_many(study: &Study, v: &Variant, i: usize) -> Outcome {
+    Outcome {
+        problems: vec![InputProblem {
+            sheet: study.sheet.clone(),
+            cell: v.cell.clone(),
+            problem: format!(
+                "variant {}: a study runs at most {MAX_VARIANTS} variants and this is variant {}; \
+                 split the study into several workbooks",
+                v.name,
+                i + 1
+            ),
+        }],
+        ..blank(v)
+    }
+}
+
+fn blank(v: &Variant) -> Outcome {
+    Outcome {
         name: v.name.clone(),
         overrides: v.overrides_text(),
         status: Status::InputError,
@@ -86,7 +106,26 @@ fn solve_one(
         final_centre_temp_c: None,
         curve: Vec::new(),
         problems: Vec::new(),
-    };
+    }
+}
+
+/// At most `most` points of `curve`, spread evenly, the first and last kept.
+pub fn thin(curve: Vec<(f64, f64)>, most: usize) -> Vec<(f64, f64)> {
+    let n = curve.len();
+    if n <= most || most < 2 {
+        return curve;
+    }
+    (0..most).map(|k| curve[k * (n - 1) / (most - 1)]).collect()
+}
+
+fn solve_one(
+    base: &RawBook,
+    study: &Study,
+    v: &Variant,
+    default_title: &str,
+    budget: Budget<'_>,
+) -> Outcome {
+    let mut out = blank(v);
     let parsed = match super::parse_variant(base, study, v, default_title) {
         Ok(p) => p,
         Err(problems) => {
@@ -139,11 +178,32 @@ fn solve_one(
     out.max_surface_centre_difference_pct = number("max_surface_centre_difference_pct");
     out.final_surface_temp_c = number("final_surface_temp_c");
     out.final_centre_temp_c = number("final_centre_temp_c");
-    out.curve = run
-        .curves
+    out.curve = thin(mean_curve(case, &run), MAX_VARIANT_CURVE_POINTS);
+    out
+}
+
+/// A run's mean moisture against time: (hours, mean moisture % on the case's basis).
+pub fn mean_curve(case: &Case, run: &RunResult) -> Vec<(f64, f64)> {
+    run.curves
         .iter()
         .map(|r| (r.time / 3600.0, case.basis.from_dry_fraction(r.mean)))
         .filter(|(h, x)| h.is_finite() && x.is_finite())
-        .collect();
-    out
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::thin;
+
+    #[test]
+    fn thinning_keeps_the_ends_and_spreads_the_rest() {
+        let curve: Vec<(f64, f64)> = (0..=100).map(|i| (f64::from(i), 0.0)).collect();
+        let t = thin(curve.clone(), 11);
+        let hours: Vec<f64> = t.iter().map(|p| p.0).collect();
+        assert_eq!(
+            hours,
+            (0..=10).map(|i| f64::from(i * 10)).collect::<Vec<_>>()
+        );
+        assert_eq!(thin(curve.clone(), 500), curve);
+    }
 }
