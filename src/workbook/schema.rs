@@ -571,6 +571,7 @@ pub const SCHEDULE: Sheet = Sheet {
             default: Default::Text("no"),
             ..f(
                 "ramp",
+                // The parser reads true/false, 1/0 and logical cells as yes/no.
                 Kind::Word(&["yes", "no", "true", "false", "1", "0"]),
                 "yes: air moves linearly from the previous step's values over this step",
             )

@@ -129,6 +129,23 @@ fn choice<T: Copy>(
     Ok(values[index.min(values.len() - 1)])
 }
 
+/// A text field (a title, name or label), trimmed, `default` where blank, and recorded.
+fn label(
+    ctx: &mut Ctx,
+    (v, at): (&RawValue, Loc),
+    place: Option<Place>,
+    quantity: String,
+    default: impl FnOnce() -> String,
+) -> String {
+    let text = ctx
+        .text(v, &at, place)
+        .ok()
+        .flatten()
+        .unwrap_or_else(default);
+    ctx.record(quantity, Text(text.clone()), "", source(v, &at));
+    text
+}
+
 /// The `case` sheet's settings in SI units, as a `Case` whose layers, materials and schedule
 /// are still empty (the other sheets fill them). The basis comes first, since every moisture
 /// depends on it.
@@ -149,13 +166,9 @@ pub(super) fn settings(ks: &KeySheet<'_>, ctx: &mut Ctx, default_title: &str) ->
     .unwrap_or(MoistureBasis::Dry);
     ctx.basis = basis;
 
-    let (v, at) = ks.get("title");
-    let title = ctx
-        .text(v, &at, None)
-        .ok()
-        .flatten()
-        .unwrap_or_else(|| default_title.to_string());
-    ctx.record("case.title".into(), Text(title.clone()), "", source(v, &at));
+    let title = label(ctx, ks.get("title"), None, "case.title".into(), || {
+        default_title.to_string()
+    });
 
     let (f, cell) = key("geometry");
     let shapes = [Geometry::Slab, Geometry::Cylinder, Geometry::Sphere];
@@ -514,17 +527,12 @@ pub(super) fn layers(
         let at = |column| Place::Layer { index: i, column };
         let prefix = format!("layers[{}].", i + 1);
 
-        let (v, loc) = t.cell(row, "name");
-        let name = ctx
-            .text(v, &loc, Some(at("name")))
-            .ok()
-            .flatten()
-            .unwrap_or_else(|| format!("layer {}", i + 1));
-        ctx.record(
+        let name = label(
+            ctx,
+            t.cell(row, "name"),
+            Some(at("name")),
             format!("{prefix}name"),
-            Text(name.clone()),
-            "",
-            source(v, &loc),
+            || format!("layer {}", i + 1),
         );
 
         let material = if t.has("material") {
@@ -633,17 +641,12 @@ fn step(t: &Table<'_>, row: &RawRow, i: usize, ctx: &mut Ctx, exposed: Exposed) 
     let at = |column| Place::Step { index: i, column };
     let prefix = format!("schedule[{}].", i + 1);
 
-    let (v, loc) = t.cell(row, "step");
-    let label = ctx
-        .text(v, &loc, Some(at("step")))
-        .ok()
-        .flatten()
-        .unwrap_or_else(|| format!("step {}", i + 1));
-    ctx.record(
+    let label = label(
+        ctx,
+        t.cell(row, "step"),
+        Some(at("step")),
         format!("{prefix}label"),
-        Text(label.clone()),
-        "",
-        source(v, &loc),
+        || format!("step {}", i + 1),
     );
 
     let num = |ctx: &mut Ctx, c: &'static str| column(ctx, t, row, field(s, c), at(c), &prefix);
@@ -657,38 +660,29 @@ fn step(t: &Table<'_>, row: &RawRow, i: usize, ctx: &mut Ctx, exposed: Exposed) 
     let exchange = exchange(t, row, i, ctx, exposed);
     let heat_coef = num(ctx, "h_w_m2k").ok().flatten();
 
+    // Logical cells and the words true/false, 1/0 are read as yes/no.
     let (v, loc) = t.cell(row, "ramp");
-    let flags = [true, false, true, false, true, false];
-    let ramp = match v {
-        RawValue::Bool(b) => {
-            ctx.record(
-                format!("{prefix}ramp"),
-                Text(if *b { "yes" } else { "no" }.into()),
-                "",
-                loc.source(),
-            );
-            *b
-        }
-        RawValue::Number(x) if *x == 1.0 || *x == 0.0 => {
-            let b = *x == 1.0;
-            ctx.record(
-                format!("{prefix}ramp"),
-                Text(if b { "yes" } else { "no" }.into()),
-                "",
-                loc.source(),
-            );
-            b
-        }
-        _ => choice(
-            ctx,
-            (v, loc),
-            field(s, "ramp"),
-            Some(at("ramp")),
-            &prefix,
-            &flags,
-        )
-        .unwrap_or(false),
+    let yes_no = |b: bool| RawValue::Text(String::from(if b { "yes" } else { "no" }));
+    let word = match v {
+        RawValue::Bool(b) => Some(yes_no(*b)),
+        RawValue::Number(x) if *x == 1.0 || *x == 0.0 => Some(yes_no(*x == 1.0)),
+        RawValue::Text(w) => match w.trim().to_lowercase().as_str() {
+            "true" | "1" => Some(yes_no(true)),
+            "false" | "0" => Some(yes_no(false)),
+            _ => None,
+        },
+        _ => None,
     };
+    let cell = (word.as_ref().unwrap_or(v), loc);
+    let ramp = choice(
+        ctx,
+        cell,
+        field(s, "ramp"),
+        Some(at("ramp")),
+        &prefix,
+        &[true, false],
+    )
+    .unwrap_or(false);
 
     Step {
         label,
