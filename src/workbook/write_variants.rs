@@ -62,6 +62,10 @@ pub fn add_sheets(wb: &mut Workbook, v: &Variants<'_>) -> Result<(), XlsxError> 
     let ws = wb.add_worksheet();
     ws.set_name("variants")?;
     ws.set_landscape();
+    // One page wide, header repeated, like every table sheet.
+    ws.set_repeat_rows(0, 0)?;
+    ws.set_paper_size(9);
+    ws.set_print_fit_to_pages(1, 0);
     for (c, name) in VARIANT_COLUMNS.iter().enumerate() {
         ws.write_string_with_format(0, c as u16, *name, &header)?;
         ws.set_column_width(c as u16, 14)?;
@@ -124,6 +128,9 @@ pub fn add_sheets(wb: &mut Workbook, v: &Variants<'_>) -> Result<(), XlsxError> 
         }
     }
     cs.set_freeze_panes(2, 0)?;
+    cs.set_repeat_rows(0, 1)?;
+    cs.set_paper_size(9);
+    cs.set_print_fit_to_pages(1, 0);
     if let Ok(ws) = wb.worksheet_from_name("variants") {
         ws.insert_chart_with_offset(v.outcomes.len() as u32 + 3, 0, &chart, 0, 0)?;
     }
