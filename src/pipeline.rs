@@ -53,6 +53,8 @@ pub struct FileOutcome {
     pub warnings: Vec<String>,
     /// Files written for this input.
     pub outputs: Vec<PathBuf>,
+    /// The variants of a study, in input order (empty without a `variants` sheet).
+    pub variants: Vec<crate::study::run::Outcome>,
 }
 
 /// What `--json` prints for one input: one JSON object on one line.
@@ -71,6 +73,9 @@ pub struct JsonReport {
     pub warnings: Vec<String>,
     /// Problems found in the input: sheet, cell, problem.
     pub problems: Vec<JsonProblem>,
+    /// The variants of a study, as on the result's `variants` sheet (left out without one).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub variants: Vec<JsonVariant>,
     /// Files written: the result workbook (and CSV tables), or the errors workbook.
     pub outputs: Vec<String>,
     /// A short note (the reason for a failure).
@@ -90,6 +95,29 @@ impl serde::Serialize for Ordered {
         }
         map.end()
     }
+}
+
+/// One variant in [`JsonReport`]: the `variants` sheet's columns, null for an empty cell.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct JsonVariant {
+    /// Its name.
+    pub variant: String,
+    /// What it replaced, `path=value; ...`.
+    pub overrides: String,
+    /// `ok`, `target_not_reached`, `input_error` or `solver_error`.
+    pub status: &'static str,
+    /// When the mean reached the target, h.
+    pub drying_time_h: Option<f64>,
+    /// Mean moisture at the end, %.
+    pub final_mean_moisture_pct: Option<f64>,
+    /// Largest surface-centre difference, %.
+    pub max_surface_centre_difference_pct: Option<f64>,
+    /// Surface temperature at the end, degrees C.
+    pub final_surface_temp_c: Option<f64>,
+    /// Centre temperature at the end, degrees C.
+    pub final_centre_temp_c: Option<f64>,
+    /// What kept it from running, each `SHEET!CELL: problem`.
+    pub problems: Vec<String>,
 }
 
 /// One problem in [`JsonReport`].
@@ -151,6 +179,21 @@ impl FileOutcome {
                 .outputs
                 .iter()
                 .map(|p| p.display().to_string())
+                .collect(),
+            variants: self
+                .variants
+                .iter()
+                .map(|v| JsonVariant {
+                    variant: v.name.clone(),
+                    overrides: v.overrides.clone(),
+                    status: v.status.word(),
+                    drying_time_h: v.drying_time_h,
+                    final_mean_moisture_pct: v.final_mean_moisture_pct,
+                    max_surface_centre_difference_pct: v.max_surface_centre_difference_pct,
+                    final_surface_temp_c: v.final_surface_temp_c,
+                    final_centre_temp_c: v.final_centre_temp_c,
+                    problems: v.problems.iter().map(ToString::to_string).collect(),
+                })
                 .collect(),
             detail: self.report.detail.clone(),
         }
@@ -275,6 +318,7 @@ impl Pipeline {
             summary: written.summary,
             warnings: written.warnings,
             outputs: written.outputs,
+            variants: written.variants,
         }
     }
 
@@ -476,6 +520,10 @@ impl Pipeline {
             }
         }
         written.summary = write::summary_entries(case, &run, &sha);
+        let study = study.map(|mut s| {
+            written.variants = std::mem::take(&mut s.outcomes);
+            s
+        });
         written.warnings = warnings;
         // Variants that could not run: their problems in an errors workbook beside the result,
         // and exit code 1, while every variant that ran is in the result.
@@ -613,6 +661,7 @@ impl Pipeline {
 /// What a run wrote, for the command line's answer.
 #[derive(Debug, Default)]
 struct Written {
+    variants: Vec<crate::study::run::Outcome>,
     summary: Vec<write::SummaryEntry>,
     warnings: Vec<String>,
     outputs: Vec<PathBuf>,

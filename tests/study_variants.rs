@@ -232,4 +232,17 @@ fn bad_variants_are_input_errors_at_their_cells_and_the_others_all_run() {
         assert!(stdout.contains(e), "{stdout}");
         assert!(warnings.iter().any(|w| w == e), "{e} in {warnings:?}");
     }
+
+    // --json carries the same table: one object per variant, in order.
+    let out = run_in(dir.path(), &["solve", "--json", "mixed.csv"]);
+    let line = String::from_utf8_lossy(&out.stdout);
+    let json: serde_json::Value = serde_json::from_str(line.trim()).expect("one JSON object");
+    let listed: Vec<&str> = json["variants"]
+        .as_array()
+        .expect("a variants array")
+        .iter()
+        .map(|v| v["status"].as_str().unwrap_or_default())
+        .collect();
+    assert_eq!(listed, status);
+    assert_eq!(json["variants"][3]["problems"][0], expect[1]);
 }
