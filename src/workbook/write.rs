@@ -107,7 +107,8 @@ fn header_row(
     Ok(())
 }
 
-fn opt_number(
+/// A number cell where the value exists and is finite; nothing otherwise.
+pub(super) fn opt_number(
     ws: &mut Worksheet,
     row: u32,
     col: u16,

@@ -3,9 +3,10 @@
 //! case's first), with a native chart of those curves on the `variants` sheet.
 
 use rust_xlsxwriter::{
-    Chart, ChartLegendPosition, ChartType, Format, FormatAlign, Workbook, Worksheet, XlsxError,
+    Chart, ChartLegendPosition, ChartType, Format, FormatAlign, Workbook, XlsxError,
 };
 
+use super::write::opt_number as number;
 use crate::study::run::Outcome;
 
 /// The `variants` sheet's columns, exactly as the format page lists them, then dampfront's
@@ -35,19 +36,6 @@ pub struct Variants<'a> {
     pub base_curve: &'a [(f64, f64)],
     /// `dry basis` or `wet basis`, for the chart's axis.
     pub basis: &'a str,
-}
-
-fn number(
-    ws: &mut Worksheet,
-    row: u32,
-    col: u16,
-    v: Option<f64>,
-    f: &Format,
-) -> Result<(), XlsxError> {
-    if let Some(v) = v.filter(|v| v.is_finite()) {
-        ws.write_number_with_format(row, col, v, f)?;
-    }
-    Ok(())
 }
 
 /// Adds `variants` and `variant_curves` to `wb`.
