@@ -43,6 +43,11 @@ STEPS_HEADERS = [
     "max_surface_centre_difference_pct", "dry_bulb_c", "rh_pct",
 ]
 ENDED_BY = {"time", "moisture", "target", "end", "skipped"}
+VARIANT_HEADERS = [
+    "variant", "overrides", "status", "drying_time_h", "final_mean_moisture_pct",
+    "max_surface_centre_difference_pct", "final_surface_temp_c", "final_centre_temp_c",
+]
+VARIANT_STATUS = {"ok", "target_not_reached", "input_error", "solver_error"}
 
 
 def is_number(v):
@@ -127,6 +132,20 @@ def check_result(path, fail):
         for i in (1, 2, 3, 5, 6, 7, 8):
             if row[i] is not None and not is_number(row[i]):
                 fail(f"{path}: steps column {STEPS_HEADERS[i]} holds {row[i]!r}")
+
+    variants = sheet(wb, "variants")
+    if variants is not None:
+        vheader = [c.value for c in next(variants.iter_rows(max_row=1))]
+        if vheader[: len(VARIANT_HEADERS)] != VARIANT_HEADERS:
+            fail(f"{path}: variants header {vheader}")
+        for row in variants.iter_rows(min_row=2, max_col=len(VARIANT_HEADERS), values_only=True):
+            if row[0] is None:
+                continue
+            if row[2] not in VARIANT_STATUS:
+                fail(f"{path}: variants row {row}")
+            for i in range(3, len(VARIANT_HEADERS)):
+                if row[i] is not None and not is_number(row[i]):
+                    fail(f"{path}: variants column {VARIANT_HEADERS[i]} holds {row[i]!r}")
 
     profiles = sheet(wb, "profiles")
     pheader = [c.value for c in next(profiles.iter_rows(max_row=1))]

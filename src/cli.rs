@@ -203,7 +203,10 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.rescan = secs(rescan_secs, "--rescan-secs")?;
             opts.stale_lock = secs(stale_lock_secs, "--stale-lock-secs")?;
             opts.grace = secs(grace_secs, "--grace-secs")?;
-            watch::watch(&opts, Arc::new(pipeline(case_seconds)?))?;
+            watch::watch(
+                &opts,
+                Arc::new(pipeline(case_seconds)?.with_jobs(opts.jobs)),
+            )?;
             Ok(Outcome::Ok)
         }
         Command::Batch {
@@ -227,7 +230,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.progress = io::stderr().is_terminal();
             let pipeline = Pipeline {
                 json_lines: json,
-                ..pipeline(case_seconds)?
+                ..pipeline(case_seconds)?.with_jobs(opts.jobs)
             };
             let summary = watch::batch(&opts, Arc::new(pipeline))?;
             if json {

@@ -17,6 +17,7 @@ pub mod limits;
 pub mod physics;
 pub mod pipeline;
 pub mod solver;
+pub mod study;
 pub mod text;
 pub mod watch;
 pub mod workbook;

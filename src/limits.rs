@@ -50,6 +50,14 @@ pub const MAX_PROFILE_TIMES: usize = 1000;
 /// Most curve rows asked for through `output_every_min` (end time / spacing).
 pub const MAX_OUTPUT_ROWS: f64 = 1e6;
 
+/// Most variants one study runs (rows of the `variants` sheet); later rows are input errors.
+/// Each variant is a whole case, with the case time limit of its own.
+pub const MAX_VARIANTS: usize = 100;
+
+/// Most points of one variant's curve on `variant_curves` (spread evenly over the run, the
+/// last always kept), so a study's result stays within a few hundred thousand cells.
+pub const MAX_VARIANT_CURVE_POINTS: usize = 1000;
+
 /// Seconds one case may take to solve by default under `solve`, before it is stopped with a
 /// message (`--case-seconds` changes it): a person at a terminal who asked for a long run.
 pub const CASE_SECONDS: f64 = 600.0;

@@ -33,6 +33,9 @@ pub struct Pipeline {
     /// Print one JSON object per finished input on standard output (`batch --json`; `solve`
     /// prints its own).
     pub json_lines: bool,
+    /// Threads the variants of a study are solved on, shared by every input this pipeline
+    /// runs (the `--jobs` of batch and watch); `None`: rayon's pool, one thread per core.
+    pub variant_pool: Option<std::sync::Arc<rayon::ThreadPool>>,
 }
 
 /// The outcome of one file, with the problems for the command line to print.
@@ -50,6 +53,8 @@ pub struct FileOutcome {
     pub warnings: Vec<String>,
     /// Files written for this input.
     pub outputs: Vec<PathBuf>,
+    /// The variants of a study, in input order (empty without a `variants` sheet).
+    pub variants: Vec<crate::study::run::Outcome>,
 }
 
 /// What `--json` prints for one input: one JSON object on one line.
@@ -68,6 +73,9 @@ pub struct JsonReport {
     pub warnings: Vec<String>,
     /// Problems found in the input: sheet, cell, problem.
     pub problems: Vec<JsonProblem>,
+    /// The variants of a study, as on the result's `variants` sheet (left out without one).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub variants: Vec<JsonVariant>,
     /// Files written: the result workbook (and CSV tables), or the errors workbook.
     pub outputs: Vec<String>,
     /// A short note (the reason for a failure).
@@ -87,6 +95,29 @@ impl serde::Serialize for Ordered {
         }
         map.end()
     }
+}
+
+/// One variant in [`JsonReport`]: the `variants` sheet's columns, null for an empty cell.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct JsonVariant {
+    /// Its name.
+    pub variant: String,
+    /// What it replaced, `path=value; ...`.
+    pub overrides: String,
+    /// `ok`, `target_not_reached`, `input_error` or `solver_error`.
+    pub status: &'static str,
+    /// When the mean reached the target, h.
+    pub drying_time_h: Option<f64>,
+    /// Mean moisture at the end, %.
+    pub final_mean_moisture_pct: Option<f64>,
+    /// Largest surface-centre difference, %.
+    pub max_surface_centre_difference_pct: Option<f64>,
+    /// Surface temperature at the end, degrees C.
+    pub final_surface_temp_c: Option<f64>,
+    /// Centre temperature at the end, degrees C.
+    pub final_centre_temp_c: Option<f64>,
+    /// What kept it from running, each `SHEET!CELL: problem`.
+    pub problems: Vec<String>,
 }
 
 /// One problem in [`JsonReport`].
@@ -148,6 +179,21 @@ impl FileOutcome {
                 .outputs
                 .iter()
                 .map(|p| p.display().to_string())
+                .collect(),
+            variants: self
+                .variants
+                .iter()
+                .map(|v| JsonVariant {
+                    variant: v.name.clone(),
+                    overrides: v.overrides.clone(),
+                    status: v.status.word(),
+                    drying_time_h: v.drying_time_h,
+                    final_mean_moisture_pct: v.final_mean_moisture_pct,
+                    max_surface_centre_difference_pct: v.max_surface_centre_difference_pct,
+                    final_surface_temp_c: v.final_surface_temp_c,
+                    final_centre_temp_c: v.final_centre_temp_c,
+                    problems: v.problems.iter().map(ToString::to_string).collect(),
+                })
                 .collect(),
             detail: self.report.detail.clone(),
         }
@@ -234,6 +280,21 @@ impl Pipeline {
         }
     }
 
+    /// The same pipeline with the variants of studies solved on `jobs` threads (0: one per
+    /// core), shared by all its inputs. Falls back to rayon's own pool if no pool can be made.
+    pub fn with_jobs(self, jobs: usize) -> Pipeline {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(watch::worker_count(jobs))
+            .thread_name(|i| format!("dampfront-variant-{i}"))
+            .build()
+            .ok()
+            .map(std::sync::Arc::new);
+        Pipeline {
+            variant_pool: pool,
+            ..self
+        }
+    }
+
     fn output(&self, path: PathBuf) -> PathBuf {
         match (&self.out_dir, path.file_name()) {
             (Some(dir), Some(name)) => dir.join(name),
@@ -247,7 +308,8 @@ impl Pipeline {
         let mut written = Written::default();
         let (report, problems) = self.run_inner(input, attempt, cancel, &mut written);
         if report.status == Status::Problems {
-            written.outputs = vec![self.output(watch::errors_path(input))];
+            // A study whose base ran has its result as well as the errors of its bad variants.
+            written.outputs.push(self.output(watch::errors_path(input)));
         }
         FileOutcome {
             report,
@@ -256,6 +318,7 @@ impl Pipeline {
             summary: written.summary,
             warnings: written.warnings,
             outputs: written.outputs,
+            variants: written.variants,
         }
     }
 
@@ -389,16 +452,30 @@ impl Pipeline {
             deadline,
         };
         let fit_report = parsed.fit_report(&run, budget);
-        let bytes = write::result_workbook(&write::ResultInput {
-            case,
-            run: &run,
-            warnings: &warnings,
-            inputs: &parsed.inputs,
-            measured: &parsed.measured,
-            fit: fit_report.as_ref(),
-            check: check.as_ref(),
-            input_sha256: &sha,
-        });
+        let study = self.study(&book, input, &run, case, cancel);
+        if let Some(s) = &study {
+            warnings.extend(s.problems.iter().map(ToString::to_string));
+        }
+        let variants = study
+            .as_ref()
+            .map(|s| crate::workbook::write_variants::Variants {
+                outcomes: &s.outcomes,
+                base_curve: &s.base_curve,
+                basis: write::basis_word(case),
+            });
+        let bytes = write::result_workbook_with(
+            &write::ResultInput {
+                case,
+                run: &run,
+                warnings: &warnings,
+                inputs: &parsed.inputs,
+                measured: &parsed.measured,
+                fit: fit_report.as_ref(),
+                check: check.as_ref(),
+                input_sha256: &sha,
+            },
+            variants.as_ref(),
+        );
         let result_path = self.output(watch::result_path(input));
         let bytes = match bytes {
             Ok(b) => b,
@@ -448,13 +525,31 @@ impl Pipeline {
                 written.outputs.push(path);
             }
         }
+        written.summary = write::summary_entries(case, &run, &sha);
+        let study = study.map(|mut s| {
+            written.variants = std::mem::take(&mut s.outcomes);
+            s
+        });
+        written.warnings = warnings;
+        // Variants that could not run: their problems in an errors workbook beside the result,
+        // and exit code 1, while every variant that ran is in the result.
+        if let Some(s) = study.filter(|s| !s.problems.is_empty()) {
+            let (mut report, problems) = self.fail(input, s.problems);
+            if report.status == Status::Problems {
+                report.detail = format!(
+                    "{} with the variants that ran; {} variant(s) could not run: {}",
+                    result_path.display(),
+                    s.failed,
+                    report.detail
+                );
+            }
+            return (report, problems);
+        }
         // A stale errors workbook from an earlier failure no longer applies.
         let errors = self.output(watch::errors_path(input));
         if errors.exists() {
             let _ = std::fs::remove_file(&errors);
         }
-        written.summary = write::summary_entries(case, &run, &sha);
-        written.warnings = warnings;
         let status = match run.status {
             RunStatus::Ok => Status::Solved,
             RunStatus::TargetNotReached => Status::TargetNotReached,
@@ -514,9 +609,65 @@ pub fn target_warning(case: &Case, p: &Problem) -> Option<String> {
     })
 }
 
+/// A study's variants as solved beside the base case.
+struct Solved {
+    outcomes: Vec<crate::study::run::Outcome>,
+    base_curve: Vec<(f64, f64)>,
+    /// Problems of the variants that could not run, at their variants cells.
+    problems: Vec<InputProblem>,
+    /// How many variants could not run.
+    failed: usize,
+}
+
+impl Pipeline {
+    /// Solves the variants of the book's `variants` sheet, if it has one.
+    fn study(
+        &self,
+        book: &crate::workbook::raw::RawBook,
+        input: &Path,
+        run: &solver::RunResult,
+        case: &Case,
+        cancel: &AtomicBool,
+    ) -> Option<Solved> {
+        use crate::study::{self, Status as V};
+        let s = study::read(book)?;
+        let budget = study::run::Budget {
+            cancel: Some(cancel),
+            case_seconds: self.case_seconds,
+        };
+        let outcomes = study::run::solve_all(
+            book,
+            &s,
+            &file_stem(input),
+            budget,
+            self.variant_pool.as_deref(),
+        );
+        let bad: Vec<&study::run::Outcome> = outcomes
+            .iter()
+            .filter(|o| matches!(o.status, V::InputError | V::SolverError))
+            .collect();
+        let problems = bad
+            .iter()
+            .flat_map(|o| o.problems.iter().cloned())
+            .collect();
+        let failed = bad.len();
+        let base_curve = study::run::thin(
+            study::run::mean_curve(case, run),
+            crate::limits::MAX_VARIANT_CURVE_POINTS,
+        );
+        Some(Solved {
+            outcomes,
+            base_curve,
+            problems,
+            failed,
+        })
+    }
+}
+
 /// What a run wrote, for the command line's answer.
 #[derive(Debug, Default)]
 struct Written {
+    variants: Vec<crate::study::run::Outcome>,
     summary: Vec<write::SummaryEntry>,
     warnings: Vec<String>,
     outputs: Vec<PathBuf>,

@@ -305,9 +305,18 @@ fn extreme_isotherm_constants_are_refused_at_their_cells() {
 
 #[test]
 fn a_vanishing_end_time_or_tolerance_is_refused() {
+    // Told in the unit typed (hours), not in seconds.
     for (row, value, text) in [
-        (3usize, V::N(1e-20), "end time"),
-        (3, V::N(1e7), "end time"),
+        (
+            3usize,
+            V::N(1e-20),
+            "end_hours 1e-20 is outside the plausible range 0.001 to 1000000 h",
+        ),
+        (
+            3,
+            V::N(1e7),
+            "end_hours 1e7 is outside the plausible range 0.001 to 1000000 h",
+        ),
     ] {
         let dir = scratch();
         let mut case = series_case("tiny");
@@ -379,12 +388,17 @@ fn settings_that_multiply_into_a_huge_result_are_refused_at_their_cells() {
 
 #[test]
 fn a_huge_number_is_named_as_too_large_not_as_inf() {
-    // Before: end_hours 1e308 (3.6e311 s) was reported as "found inf".
+    // Before: end_hours 1e308 (3.6e311 s) was reported as "found inf"; now the value is
+    // checked as typed, in hours.
     let dir = scratch();
     let mut case = series_case("huge");
     case[0].1[3][1] = V::N(1e308);
     write_csv(&dir.path().join("huge.csv"), &case);
-    let lines = refused(dir.path(), "huge.csv", "too large to use");
+    let lines = refused(
+        dir.path(),
+        "huge.csv",
+        "end_hours 1e308 is outside the plausible range",
+    );
     assert!(lines.iter().all(|l| !l.contains("inf")), "{lines:?}");
 }
 

@@ -248,7 +248,8 @@ fn unknown_sheets_keys_and_columns_are_warnings() {
     set(&mut s, "layers", 1, 3, C::T("outer board"));
     let p = ok(&s);
     let w = &p.warnings;
-    assert_eq!(w.len(), 5, "{w:#?}");
+    // The variants sheet is a study (crate::study), not an unknown sheet: no warning.
+    assert_eq!(w.len(), 4, "{w:#?}");
     assert!(
         w.iter()
             .any(|w| w.starts_with("case!A1: unknown key \"colour\"")),
@@ -265,11 +266,7 @@ fn unknown_sheets_keys_and_columns_are_warnings() {
             .any(|w| w.starts_with("fit: ") && w.contains("no measured sheet")),
         "{w:#?}"
     );
-    assert!(
-        w.iter()
-            .any(|w| w.starts_with("variants: ") && w.contains("not available")),
-        "{w:#?}"
-    );
+    assert!(!w.iter().any(|w| w.starts_with("variants")), "{w:#?}");
 }
 
 #[test]
@@ -598,4 +595,26 @@ fn isotherm_parameters_are_required_per_isotherm() {
     set(&mut s, "materials", 2, 8, C::N(1.0));
     let p = ok(&s);
     assert!(p.warnings[0].starts_with("materials!I3: iso_a is not used by isotherm wood"));
+}
+
+#[test]
+fn range_problems_quote_the_value_and_range_in_the_users_unit() {
+    let mut s = minimal_case();
+    // 20000 mm is 20 m: beyond the plausible 10 m (1e-6 to 10 m, the case's guard), shown in
+    // mm as typed (1 m = 1000 mm, SI definition).
+    set(&mut s, "layers", 1, 1, C::N(20000.0));
+    // 2e6 h: beyond the plausible 3.6e9 s = 1e6 h (1 h = 3600 s, SI definition).
+    set(&mut s, "case", 0, 0, C::T("end_hours"));
+    set(&mut s, "case", 0, 1, C::N(2e6));
+    let problems = problems(&s);
+    assert_eq!(
+        at(&problems, "layers", "B2").problem,
+        "thickness_mm 20000 is outside the plausible range 0.001 to 10000 mm"
+    );
+    assert_eq!(
+        at(&problems, "case", "B1").problem,
+        "end_hours 2000000 is outside the plausible range 0.001 to 1000000 h"
+    );
+    // Not said again in SI by the case checks.
+    assert_eq!(problems.len(), 2, "{problems:#?}");
 }

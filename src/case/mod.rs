@@ -13,7 +13,7 @@ pub use measured::Measured;
 
 pub use plausible::{DRY_PCT, HOT_C, LOW_RH, THIN_M};
 
-pub use validate::{Place, Problem};
+pub use validate::{Place, Problem, ranges};
 
 use crate::physics::{Diffusivity, Isotherm};
 

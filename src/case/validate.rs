@@ -66,6 +66,35 @@ impl fmt::Display for Problem {
     }
 }
 
+/// Plausible ranges in SI units, each `(low, high)`: a value outside is a unit slip or a typing
+/// mistake, and is refused. The workbook schema shows them in the user's units at the cell
+/// (`workbook::schema`); [`Case::validate`] keeps them as the model's own guard for cases built
+/// in code (tests, fits).
+pub mod ranges {
+    /// End time, s: 3.6 s to about 114 years; beyond either end a unit mistake, and a
+    /// vanishing end time makes the step control crawl.
+    pub const END_TIME_S: (f64, f64) = (3.6, 3.6e9);
+    /// Layer thickness, m.
+    pub const THICKNESS_M: (f64, f64) = (1e-6, 10.0);
+    /// Dry density, kg/m3 (common practice): lighter than aerogel or denser than osmium is a
+    /// units mistake.
+    pub const DRY_DENSITY: (f64, f64) = (1.0, 25_000.0);
+    /// Reference diffusivity, m2/s (common practice): beyond that of vapour in air is a units
+    /// mistake.
+    pub const D_REF: (f64, f64) = (1e-20, 1e-4);
+    /// Thermal conductivity, W/(m K) (common practice): still air 0.026 and copper 400 bound
+    /// every product; outside that, a unit slip (mW, or W/(cm K)).
+    pub const CONDUCTIVITY: (f64, f64) = (0.01, 500.0);
+    /// Specific heat of the dry solid, J/(kg K) (common practice): dry solids lie near
+    /// 500-2500; kJ typed for J is 1000x.
+    pub const SPECIFIC_HEAT: (f64, f64) = (100.0, 10_000.0);
+    /// Heat transfer coefficient, W/(m2 K) (common practice): free convection in still air is
+    /// about 2, condensing steam about 1e5; beyond those a unit slip is likelier than a dryer.
+    pub const HEAT_COEF: (f64, f64) = (0.1, 1e5);
+    /// Air dry bulb, degrees C.
+    pub const DRY_BULB_C: (f64, f64) = (-60.0, 350.0);
+}
+
 /// The most cells a case may ask for: beyond this a 1-D run gains nothing and memory grows.
 pub const MAX_TOTAL_CELLS: usize = crate::limits::MAX_TOTAL_CELLS;
 
@@ -169,12 +198,13 @@ fn check_settings(case: &Case, c: &mut Checker) {
     c.positive(Place::Case("end_hours"), "end_hours", case.end_time);
     // From 3.6 s to about 114 years: beyond either end the number is a unit mistake, and a
     // vanishing end time or tolerance makes the step control crawl.
+    let (lo, hi) = ranges::END_TIME_S;
     c.within(
         Place::Case("end_hours"),
         "end time (s)",
         case.end_time,
-        3.6,
-        3.6e9,
+        lo,
+        hi,
         "s",
     );
     if let Some(x) = case.target_moisture {
@@ -301,8 +331,8 @@ fn check_coupled(case: &Case, c: &mut Checker) {
                 },
                 "h_w_m2k",
                 h,
-                0.1,
-                1e5,
+                ranges::HEAT_COEF.0,
+                ranges::HEAT_COEF.1,
                 "W/(m2 K)",
             );
         }
@@ -322,13 +352,20 @@ fn check_materials(case: &Case, c: &mut Checker) {
             at("dry_density_kg_m3"),
             "dry_density_kg_m3",
             m.dry_density,
-            1.0,
-            25_000.0,
+            ranges::DRY_DENSITY.0,
+            ranges::DRY_DENSITY.1,
             "kg/m3",
         );
         let d = &m.diffusivity;
         c.positive(at("d_ref_m2_s"), "d_ref_m2_s", d.d_ref);
-        c.within(at("d_ref_m2_s"), "d_ref_m2_s", d.d_ref, 1e-20, 1e-4, "m2/s");
+        c.within(
+            at("d_ref_m2_s"),
+            "d_ref_m2_s",
+            d.d_ref,
+            ranges::D_REF.0,
+            ranges::D_REF.1,
+            "m2/s",
+        );
         if d.t_ref_c.is_finite() && d.t_ref_c <= -273.15 {
             c.push(
                 at("d_ref_temp_c"),
@@ -362,8 +399,8 @@ fn check_materials(case: &Case, c: &mut Checker) {
                 at("conductivity_w_mk"),
                 "conductivity_w_mk",
                 k,
-                0.01,
-                500.0,
+                ranges::CONDUCTIVITY.0,
+                ranges::CONDUCTIVITY.1,
                 "W/(m K)",
             );
         }
@@ -374,8 +411,8 @@ fn check_materials(case: &Case, c: &mut Checker) {
                 at("specific_heat_j_kgk"),
                 "specific_heat_j_kgk",
                 cp,
-                100.0,
-                10_000.0,
+                ranges::SPECIFIC_HEAT.0,
+                ranges::SPECIFIC_HEAT.1,
                 "J/(kg K)",
             );
         }
@@ -483,8 +520,8 @@ fn check_layers(case: &Case, c: &mut Checker) {
             at("thickness_mm"),
             "thickness (m)",
             l.thickness,
-            1e-6,
-            10.0,
+            ranges::THICKNESS_M.0,
+            ranges::THICKNESS_M.1,
             "m",
         );
         c.non_negative(
@@ -544,7 +581,8 @@ fn check_schedule(case: &Case, c: &mut Checker) {
     let last = case.schedule.len().saturating_sub(1);
     for (i, s) in case.schedule.iter().enumerate() {
         let at = |column| Place::Step { index: i, column };
-        if !(s.dry_bulb_c.is_finite() && (-60.0..=350.0).contains(&s.dry_bulb_c)) {
+        let (lo, hi) = ranges::DRY_BULB_C;
+        if !(s.dry_bulb_c.is_finite() && (lo..=hi).contains(&s.dry_bulb_c)) {
             c.push(
                 at("dry_bulb_c"),
                 format!(

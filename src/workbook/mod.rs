@@ -10,5 +10,7 @@
 pub mod parse;
 pub mod raw;
 pub mod read;
+pub mod schema;
 pub mod template;
 pub mod write;
+pub mod write_variants;

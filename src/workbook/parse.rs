@@ -14,8 +14,6 @@
 //! value that already failed to read is not repeated.
 
 mod build;
-
-pub(crate) use build::MATERIAL_COLUMNS;
 mod context;
 mod fit_sheet;
 mod sheets;
@@ -24,6 +22,7 @@ use std::fmt;
 
 use crate::case::{Case, Place, ValidCase};
 use crate::workbook::raw::RawBook;
+use crate::workbook::schema;
 
 use context::{Ctx, Loc};
 use sheets::{Found, KeySheet, Table, sheet_loc};
@@ -127,6 +126,22 @@ fn missing_sheet(name: &'static str, found: Found<'_>, book: &RawBook, ctx: &mut
     );
 }
 
+/// Reads a table sheet with the schema's columns; a column the schema calls required but the
+/// header lacks is a problem (marked failed for `kind`, the case place kind of its rows).
+fn table<'b>(sheet: &schema::Sheet, found: Found<'b>, kind: u8, ctx: &mut Ctx) -> Table<'b> {
+    let t = Table::read(sheet.name, found, &sheet.names(), ctx);
+    let required: Vec<&'static str> = sheet
+        .fields
+        .iter()
+        .filter(|f| f.required)
+        .map(|f| f.name)
+        .collect();
+    if t.present && !t.is_empty() {
+        t.require(&required, kind, ctx);
+    }
+    t
+}
+
 /// Reads a raw book as a case workbook. `default_title` (usually the file stem) is the title
 /// when the `case` sheet gives none.
 ///
@@ -142,54 +157,25 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
     };
 
     missing_sheet("case", get("case"), book, &mut ctx);
-    let keys = KeySheet::read("case", get("case"), build::CASE_KEYS, &mut ctx);
+    let keys = KeySheet::read("case", get("case"), &schema::CASE.names(), &mut ctx);
     let case = build::settings(&keys, &mut ctx, default_title);
 
     missing_sheet("materials", get("materials"), book, &mut ctx);
-    let materials_t = Table::read(
-        "materials",
-        get("materials"),
-        build::MATERIAL_COLUMNS,
-        &mut ctx,
-    );
-    materials_t.require(
-        &["material", "dry_density_kg_m3", "d_ref_m2_s"],
-        3,
-        &mut ctx,
-    );
+    let materials_t = table(&schema::MATERIALS, get("materials"), 3, &mut ctx);
     let (materials, names) = build::materials(&materials_t, &mut ctx);
 
     missing_sheet("layers", get("layers"), book, &mut ctx);
-    let layers_t = Table::read("layers", get("layers"), build::LAYER_COLUMNS, &mut ctx);
-    layers_t.require(
-        &["material", "thickness_mm", "initial_moisture_pct"],
-        2,
-        &mut ctx,
-    );
+    let layers_t = table(&schema::LAYERS, get("layers"), 2, &mut ctx);
     if !layers_t.has("material") {
         ctx.exchange_unknown = true;
     }
     let layers = build::layers(&layers_t, &mut ctx, &materials, &names);
 
     missing_sheet("schedule", get("schedule"), book, &mut ctx);
-    let schedule_t = Table::read(
-        "schedule",
-        get("schedule"),
-        build::SCHEDULE_COLUMNS,
-        &mut ctx,
-    );
-    schedule_t.require(&["dry_bulb_c"], 4, &mut ctx);
+    let schedule_t = table(&schema::SCHEDULE, get("schedule"), 4, &mut ctx);
     let schedule = build::schedule(&schedule_t, &mut ctx, case.exposed);
 
-    let measured_t = Table::read(
-        "measured",
-        get("measured"),
-        build::MEASURED_COLUMNS,
-        &mut ctx,
-    );
-    if measured_t.present && !measured_t.is_empty() {
-        measured_t.require(&["hours", "moisture_pct"], 5, &mut ctx);
-    }
+    let measured_t = table(&schema::MEASURED, get("measured"), 5, &mut ctx);
     let measured = build::measured(&measured_t, &mut ctx);
 
     let first_material = layers.first().map(|l| l.material);
@@ -200,13 +186,7 @@ pub fn parse(book: &RawBook, default_title: &str) -> Result<Parsed, Vec<InputPro
         !measured.is_empty(),
         &mut ctx,
     );
-    if get("variants").sheet.is_some() {
-        ctx.warn(
-            &sheet_loc("variants", get("variants")),
-            "parameter studies are not available in this version; the sheet was not used and \
-             only the base case runs",
-        );
-    }
+    // The `variants` sheet is read by `crate::study`, on the raw cells.
 
     let case = Case {
         layers,

@@ -17,7 +17,7 @@ pub enum Kind {
     Wood,
     /// Apple slices in a tray dryer with a given air velocity.
     Food,
-    /// A clay tile under a ramped schedule.
+    /// A clay tile under a ramped schedule, with a parameter study (`variants`).
     Clay,
     /// The smallest runnable case: one layer, constant D, fixed surface (has a series check).
     Blank,
@@ -109,41 +109,15 @@ fn table(name: &str, headers: &[&str], rows: Vec<Vec<Cell>>) -> Sheet {
     }
 }
 
+/// A header's note: the schema's, written once for parser, templates and docs.
 fn column_meaning(header: &str) -> Option<&'static str> {
-    Some(match header {
-        "name" => "label of the layer",
-        "material" => "a name from sheet materials",
-        "thickness_mm" => {
-            "layer thickness in mm (radial for cylinders and spheres); layers are listed from face A"
-        }
-        "initial_moisture_pct" => "uniform initial moisture, % on the case's basis",
-        "initial_temp_c" => "initial temperature, C",
-        "dry_density_kg_m3" => "mass of dry solid per m3 of product",
-        "d_ref_m2_s" => "moisture diffusivity D at the reference state, m2/s",
-        "d_ref_temp_c" => "reference temperature of d_ref, C (default 25)",
-        "d_ref_moisture_pct" => "reference moisture of d_ref, % (default 0)",
-        "activation_energy_kj_mol" => "Arrhenius activation energy of D, kJ/mol",
-        "moisture_coef" => "D grows by exp(moisture_coef * (X - X_ref)), X as dry-basis fraction",
-        "isotherm" => "gab, oswin, henderson, wood or none",
-        "iso_a" => "isotherm parameter a (GAB: monolayer moisture Xm, dry fraction)",
-        "iso_b" => "isotherm parameter b (GAB: C)",
-        "iso_c" => "isotherm parameter c (GAB: K)",
-        "step" => "label of the step",
-        "hours" => "duration of the step, h",
-        "until_moisture_pct" => "the step ends when the mean moisture reaches this",
-        "dry_bulb_c" => "air temperature, C",
-        "rh_pct" => "air relative humidity, %",
-        "wet_bulb_c" => "wet-bulb temperature, C (instead of rh_pct)",
-        "equilibrium_moisture_pct" => "moisture the surface tends to, instead of the isotherm's",
-        "surface_moisture_pct" => "fix the exposed surfaces at this moisture",
-        "surface_coef_m_s" => "content-based surface coefficient beta, m/s",
-        "hm_m_s" => "air-side mass transfer coefficient, m/s",
-        "air_velocity_m_s" => {
-            "air velocity over the surface, m/s (hm from a flat-plate correlation)"
-        }
-        "ramp" => "yes: air moves linearly from the previous step's values over this step",
-        _ => return None,
-    })
+    if header.contains('.') {
+        return Some(
+            "the input this column replaces in each variant: SHEET.COLUMN[ROW] (ROW counts data \
+             rows from 1, * is every row) or case.KEY; an empty cell keeps the base value",
+        );
+    }
+    super::schema::note(header)
 }
 
 fn n(v: f64) -> Cell {
@@ -156,13 +130,14 @@ fn t(v: &str) -> Cell {
 
 /// The `materials` columns of an isothermal case: the format's list up to `iso_c`, leaving out
 /// the coupled-run columns (conductivity, specific heat).
-fn material_headers() -> &'static [&'static str] {
-    let columns = super::parse::MATERIAL_COLUMNS;
+fn material_headers() -> Vec<&'static str> {
+    let mut columns = super::schema::MATERIALS.names();
     let end = columns
         .iter()
         .position(|c| *c == "iso_c")
         .map_or(columns.len(), |i| i + 1);
-    &columns[..end]
+    columns.truncate(end);
+    columns
 }
 /// The sheets of an example workbook.
 pub fn sheets(kind: Kind) -> Vec<Sheet> {
@@ -235,7 +210,7 @@ fn wood() -> Vec<Sheet> {
         ),
         table(
             "materials",
-            super::parse::MATERIAL_COLUMNS,
+            &super::schema::MATERIALS.names(),
             vec![vec![
                 t("demo hardwood"),
                 n(600.0),
@@ -354,7 +329,7 @@ fn food() -> Vec<Sheet> {
         ),
         table(
             "materials",
-            super::parse::MATERIAL_COLUMNS,
+            &super::schema::MATERIALS.names(),
             vec![vec![
                 t("demo apple"),
                 n(130.0),
@@ -428,7 +403,7 @@ fn clay() -> Vec<Sheet> {
         ),
         table(
             "materials",
-            material_headers(),
+            &material_headers(),
             vec![vec![
                 t("demo clay body"),
                 n(1800.0),
@@ -450,6 +425,41 @@ fn clay() -> Vec<Sheet> {
                 vec![t("hold humid"), n(6.0), n(25.0), n(85.0), n(0.005), t("no")],
                 vec![t("ramp up"), n(24.0), n(60.0), n(30.0), n(0.005), t("yes")],
                 vec![t("dry"), Cell::Empty, n(60.0), n(30.0), n(0.005), t("no")],
+            ],
+        ),
+        // A parameter study: each row runs as a case of its own beside the base case above.
+        table(
+            "variants",
+            &[
+                "variant",
+                "layers.thickness_mm[1]",
+                "schedule.dry_bulb_c[2]",
+                "schedule.dry_bulb_c[3]",
+                "schedule.hm_m_s[*]",
+            ],
+            vec![
+                vec![
+                    t("thinner tile"),
+                    n(8.0),
+                    Cell::Empty,
+                    Cell::Empty,
+                    Cell::Empty,
+                ],
+                vec![
+                    t("thicker tile"),
+                    n(16.0),
+                    Cell::Empty,
+                    Cell::Empty,
+                    Cell::Empty,
+                ],
+                vec![t("hotter air"), Cell::Empty, n(70.0), n(70.0), Cell::Empty],
+                vec![
+                    t("faster air"),
+                    Cell::Empty,
+                    Cell::Empty,
+                    Cell::Empty,
+                    n(0.01),
+                ],
             ],
         ),
     ]

@@ -113,7 +113,8 @@ fn header_row(
     Ok(())
 }
 
-fn opt_number(
+/// A number cell where the value exists and is finite; nothing otherwise.
+pub(super) fn opt_number(
     ws: &mut Worksheet,
     row: u32,
     col: u16,
@@ -156,6 +157,14 @@ const ZIP_LEVEL: u8 = 1;
 
 /// Builds the result workbook.
 pub fn result_workbook(r: &ResultInput<'_>) -> Result<Vec<u8>, XlsxError> {
+    result_workbook_with(r, None)
+}
+
+/// Builds the result workbook, with the `variants` and `variant_curves` sheets of a study.
+pub fn result_workbook_with(
+    r: &ResultInput<'_>,
+    variants: Option<&super::write_variants::Variants<'_>>,
+) -> Result<Vec<u8>, XlsxError> {
     let mut wb = Workbook::new();
     wb.set_properties(&properties(&r.case.title)?);
     wb.set_zip_compression_level(ZIP_LEVEL);
@@ -169,6 +178,9 @@ pub fn result_workbook(r: &ResultInput<'_>) -> Result<Vec<u8>, XlsxError> {
     }
     if let Some(check) = r.check {
         check_sheet(wb.add_worksheet(), r.case, check, &f)?;
+    }
+    if let Some(v) = variants {
+        super::write_variants::add_sheets(&mut wb, v)?;
     }
     input_sheet(wb.add_worksheet(), r, &f)?;
     wb.save_to_buffer()
@@ -807,7 +819,8 @@ fn chart_text(text: &str) -> String {
     }
 }
 
-fn basis_word(case: &Case) -> &'static str {
+/// `dry basis` or `wet basis`.
+pub fn basis_word(case: &Case) -> &'static str {
     match case.basis {
         MoistureBasis::Dry => "dry basis",
         MoistureBasis::Wet => "wet basis",

@@ -7,6 +7,7 @@ use super::{InputRecord, InputValue};
 use crate::case::{MoistureBasis, Place};
 use crate::workbook::raw::RawValue;
 use crate::workbook::read::NO_CACHED_VALUE;
+use crate::workbook::schema::{Field, Min};
 
 /// Marks a value whose problem has already been recorded.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -39,40 +40,22 @@ impl Loc {
     }
 }
 
-/// Units of numeric places, for what a message says was expected.
+/// What a message says a numeric place expected: a unit as the user types it (`mm`, `h`,
+/// `C`), from the schema.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub(super) enum Unit {
-    Plain,
-    Mm,
-    Hours,
-    Minutes,
-    Pct,
-    Celsius,
-    KgM3,
-    M2S,
-    KjMol,
-    MS,
-    Wm2k,
-    Wmk,
-    Jkgk,
-}
+pub(super) struct Unit(pub &'static str);
 
 impl Unit {
-    fn expected(self) -> &'static str {
-        match self {
-            Unit::Plain => "a number",
-            Unit::Mm => "a number of mm",
-            Unit::Hours => "a number of hours",
-            Unit::Minutes => "a number of minutes",
-            Unit::Pct => "a number of %",
-            Unit::Celsius => "a temperature in C",
-            Unit::KgM3 => "a number of kg/m3",
-            Unit::M2S => "a number of m2/s",
-            Unit::KjMol => "a number of kJ/mol",
-            Unit::MS => "a number of m/s",
-            Unit::Wm2k => "a number of W/(m2 K)",
-            Unit::Wmk => "a number of W/(m K)",
-            Unit::Jkgk => "a number of J/(kg K)",
+    /// A pure number.
+    pub const PLAIN: Unit = Unit("");
+
+    fn expected(self) -> String {
+        match self.0 {
+            "" => String::from("a number"),
+            "h" => String::from("a number of hours"),
+            "min" => String::from("a number of minutes"),
+            "C" => String::from("a temperature in C"),
+            u => format!("a number of {u}"),
         }
     }
 }
@@ -131,6 +114,15 @@ fn found(v: &RawValue) -> String {
 /// A number as a message shows it.
 pub(super) fn show(x: f64) -> String {
     format!("{x}")
+}
+
+/// A number in a range message: 1e308 rather than three hundred digits.
+fn show_short(x: f64) -> String {
+    if x != 0.0 && !(1e-4..1e7).contains(&x.abs()) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
 }
 
 /// Kinds of [`Place`] as a hashable key.
@@ -325,6 +317,61 @@ impl Ctx {
         }
     }
 
+    /// A number of a schema field in the user's unit, checked against the field's least value
+    /// and plausible range there, so the message quotes the value and range as typed
+    /// (`thickness_mm 20000 is outside the plausible range 0.001 to 10000 mm`).
+    pub fn field_number(
+        &mut self,
+        v: &RawValue,
+        at: &Loc,
+        field: &Field,
+        place: Option<Place>,
+    ) -> Read<f64> {
+        let Some(x) = self.number(v, at, Unit(field.unit), place.clone())? else {
+            return Ok(None);
+        };
+        let name = field.name;
+        match field.min {
+            Min::Positive if x <= 0.0 => {
+                self.problem(
+                    at,
+                    place,
+                    format!("{name} must be a number > 0, found {}", show(x)),
+                );
+                return Err(Bad);
+            }
+            Min::NonNegative if x < 0.0 => {
+                self.problem(
+                    at,
+                    place,
+                    format!("{name} must be a number >= 0, found {}", show(x)),
+                );
+                return Err(Bad);
+            }
+            _ => {}
+        }
+        if let (Some((lo, hi)), Some((ulo, uhi))) = (field.range, field.user_range()) {
+            let si = field.conv.to_si(x);
+            if !(lo..=hi).contains(&si) {
+                let unit = if field.unit == "C" { "C" } else { field.unit };
+                self.problem(
+                    at,
+                    place,
+                    format!(
+                        "{name} {} is outside the plausible range {} to {} {unit}",
+                        show_short(x),
+                        show_short(ulo),
+                        show_short(uhi)
+                    )
+                    .trim_end()
+                    .to_string(),
+                );
+                return Err(Bad);
+            }
+        }
+        Ok(Some(x))
+    }
+
     /// Text, trimmed; numbers are written as a spreadsheet shows them; blank is `None`.
     pub fn text(&mut self, v: &RawValue, at: &Loc, place: Option<Place>) -> Read<String> {
         match v {
@@ -380,7 +427,7 @@ impl Ctx {
         place: Option<Place>,
         what: &str,
     ) -> Read<f64> {
-        let Some(pct) = self.number(v, at, Unit::Pct, place.clone())? else {
+        let Some(pct) = self.number(v, at, Unit("%"), place.clone())? else {
             return Ok(None);
         };
         if pct < 0.0 {
@@ -407,26 +454,6 @@ impl Ctx {
         }
     }
 
-    /// Records a problem unless `x` > 0.
-    pub fn check_positive(
-        &mut self,
-        x: f64,
-        at: &Loc,
-        place: Option<Place>,
-        what: &str,
-    ) -> Result<f64, Bad> {
-        if x > 0.0 {
-            Ok(x)
-        } else {
-            self.problem(
-                at,
-                place,
-                format!("{what} must be a number > 0, found {}", show(x)),
-            );
-            Err(Bad)
-        }
-    }
-
     /// Records a problem unless `x` >= 0.
     pub fn check_non_negative(
         &mut self,
@@ -447,9 +474,6 @@ impl Ctx {
         }
     }
 }
-
-/// Unit text of a moisture in input records.
-pub(super) const MOISTURE_UNIT: &str = "fraction (dry basis)";
 
 #[cfg(test)]
 #[allow(clippy::unwrap_used)]

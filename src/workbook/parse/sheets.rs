@@ -6,17 +6,6 @@ use std::collections::HashMap;
 use super::context::{Ctx, Loc};
 use crate::workbook::raw::{RawBook, RawRow, RawSheet, RawValue, a1, column_letters};
 
-/// Sheets of the case workbook format, in the order the format page lists them.
-pub(super) const KNOWN_SHEETS: &[&str] = &[
-    "case",
-    "layers",
-    "materials",
-    "schedule",
-    "measured",
-    "fit",
-    "variants",
-];
-
 static EMPTY: RawValue = RawValue::Empty;
 
 /// Sheet names and headers are matched this way: case-insensitive, after trimming spaces.
@@ -47,9 +36,13 @@ pub(super) fn find_sheets<'b>(
             context: String::new(),
             order: (i + 1, 0, 0),
         };
-        match KNOWN_SHEETS.iter().find(|k| **k == name) {
+        match crate::workbook::schema::SHEETS
+            .iter()
+            .map(|s| s.name)
+            .find(|k| *k == name)
+        {
             Some(k) => {
-                if let Some(first) = found.get(k).and_then(|f| f.sheet) {
+                if let Some(first) = found.get(&k).and_then(|f| f.sheet) {
                     ctx.problem(
                         &at,
                         None,
