@@ -77,6 +77,7 @@ fn main() {
             warnings: &parsed.warnings,
             inputs: &parsed.inputs,
             measured: &parsed.measured,
+            fit: None,
             check: table.as_ref(),
             input_sha256: "0000",
         };
