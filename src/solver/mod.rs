@@ -11,6 +11,7 @@ pub mod coupled;
 mod driver;
 pub mod flux;
 pub mod mesh;
+pub mod method;
 pub mod model;
 pub mod observe;
 pub mod problem;
@@ -24,7 +25,7 @@ pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
 pub use problem::Problem;
 pub use schedule::{StepEnd, StepRecord};
 pub use state::State;
-pub use stepper::{Controller, Stats, Stepper, StopReason};
+pub use stepper::{Controller, Exchanged, Stats, Stepper, StopReason};
 pub use workspace::Workspace;
 
 use crate::case::Case;
