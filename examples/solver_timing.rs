@@ -46,7 +46,12 @@ fn problem(id: u32, cells: usize, tol: f64) -> (Case, f64, Option<(Series, f64, 
     } else {
         x_eq + 0.01 * (x0 - x_eq)
     });
-    case.output_every = Some(end / 400.0);
+    case.output_every = Some(
+        end / std::env::var("ROWS")
+            .ok()
+            .and_then(|r| r.parse().ok())
+            .unwrap_or(400.0),
+    );
     let series = match id {
         1 => Some((Series::new(Shape::Slab, Surface::Fixed), l, d)),
         2 => Some((
@@ -82,9 +87,10 @@ fn main() {
         "{:<4} {:>9} {:>6} {:>6} {:>7} {:>7} {:>10} {:>10}",
         "case", "ms", "steps", "rej", "newton", "linear", "MR error", "mass bal"
     );
-    for id in 1..=4 {
+    let only: Option<u32> = std::env::var("ONLY").ok().and_then(|v| v.parse().ok());
+    for id in (1..=4).filter(|i| only.is_none_or(|o| o == *i)) {
         let (case, x_eq, series) = problem(id, cells, tol);
-        let (secs, run) = timed(&case, 20);
+        let (secs, run) = timed(&case, if only.is_some() { 2000 } else { 20 });
         let x0 = case.layers[0].initial_moisture;
         let mr = |x: f64| (x - x_eq) / (x0 - x_eq);
         let err = match series {
@@ -116,9 +122,15 @@ fn main() {
             err,
             run.mass_balance_error
         );
+        if std::env::var_os("STATS").is_some() {
+            println!("     {s}");
+        }
     }
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("inbox-demo/wood-board.xlsx");
-    if let Ok((book, _)) = dampfront::workbook::read::read_file(&path) {
+    if let (Ok((book, _)), true) = (
+        dampfront::workbook::read::read_file(&path),
+        only.is_none_or(|o| o == 5),
+    ) {
         let parsed = dampfront::workbook::parse::parse(&book, "wood").expect("demo parses");
         let case: Case = (*parsed.case).clone();
         let (secs, run) = timed(&case, 3);

@@ -432,8 +432,9 @@ pub fn evaluate_faces(
     evaluate_faces_with(problem, thermal, faces, state, ws, true)
 }
 
-/// As [`evaluate_faces`], with the interior derivative blocks computed only when `derivatives` is
-/// set (otherwise those stored are left as they are, for a reused Jacobian). The exposed faces'
+/// As [`evaluate_faces`], with the derivative blocks of material boundaries (central differences,
+/// eight more interface solves each) computed only when `derivatives` is set (otherwise those
+/// stored are kept, for a reused Jacobian); blocks inside one material come with the fluxes. The exposed faces'
 /// blocks are always fresh: they keep the Newton update's water and energy balance exact to
 /// first order, whatever interior blocks it uses (those cancel between neighbouring cells).
 pub fn evaluate_faces_with(
@@ -478,7 +479,8 @@ pub fn evaluate_faces_with(
         };
         ws.water[k] = f;
         ws.energy[k] = q;
-        if derivatives {
+        // Inside one material the blocks come with the fluxes; a boundary's only when asked.
+        if derivatives || matches!(face, InnerFace::Same { .. }) {
             ws.deriv[k] = d;
         }
     }

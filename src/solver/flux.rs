@@ -184,6 +184,33 @@ pub fn face_outflow(
     xc: f64,
     t_c: f64,
 ) -> (f64, f64, f64) {
+    let (j, dj, xs, _) = face_outflow_from(m, site, law, xc, t_c, f64::NAN);
+    (j, dj, xs)
+}
+
+/// [`face_outflow`] started from `guess` (NaN for none): returns (outflow, d outflow / d xc,
+/// surface moisture, the solved unknown to start the next call from).
+///
+/// - Fixed surface: closed form.
+/// - Content-based law k (X_s - X_eq): closed form with a constant diffusivity,
+///   X_s = (g D X_c + k X_eq) / (g D + k) with g = rho / half cell; otherwise Newton on X_s
+///   inside the bracket [X_eq, X_c].
+/// - Air-side law hm (aw c_sat - rho_v): the unknown is the surface water activity aw, so the
+///   isotherm is only evaluated forward (X(aw) and its slope, no inversion): Newton on
+///   conduction(X(aw)) = hm (aw c_sat - rho_v) inside [0, 1]. Where the cell holds free water and
+///   could feed more than the air takes at aw = 1, the surface is wet: the outflow is
+///   hm (c_sat - rho_v) and X_s >= the saturation moisture solves conduction(X_s) = that.
+///
+/// Each Newton iteration keeps a bracket and bisects when a step would leave it, so the warm
+/// start only speeds things up. Derivatives follow from the implicit-function theorem.
+pub fn face_outflow_from(
+    m: &MaterialProps,
+    site: &FaceSite,
+    law: FaceLaw,
+    xc: f64,
+    t_c: f64,
+    guess: f64,
+) -> (f64, f64, f64, f64) {
     let g = m.density / site.half_width;
     // Conduction over the half cell towards the surface, and its partial derivatives.
     let conduction = |xs: f64| {
@@ -198,14 +225,30 @@ pub fn face_outflow(
         )
     };
     match law {
-        FaceLaw::Sealed => (0.0, 0.0, xc),
+        FaceLaw::Sealed => (0.0, 0.0, xc, f64::NAN),
         FaceLaw::Fixed(xs) => {
             let (j, dj_dxc, _) = conduction(xs);
-            (j, dj_dxc, xs)
+            (j, dj_dxc, xs, xs)
         }
         FaceLaw::Linear { k, x_eq } => {
-            let external = |xs: f64| (k * (xs - x_eq), k);
-            surface_balance(conduction, external, xc, Some(x_eq))
+            if m.diffusivity.is_constant() {
+                let gd = g * m.diffusivity.at(xc, t_c);
+                let xs = (gd * xc + k * x_eq) / (gd + k);
+                return (k * (xs - x_eq), k * gd / (gd + k), xs, xs);
+            }
+            let (lo, hi) = if xc > x_eq { (x_eq, xc) } else { (xc, x_eq) };
+            let xs = newton_in_bracket(
+                |xs| {
+                    let (c, _, c_s) = conduction(xs);
+                    (c - k * (xs - x_eq), c_s - k)
+                },
+                lo,
+                hi,
+                guess,
+            );
+            let (_, c_c, c_s) = conduction(xs);
+            let dxs = -c_c / (c_s - k);
+            (k * (xs - x_eq), k * dxs, xs, xs)
         }
         FaceLaw::AirSide {
             hm,
@@ -213,19 +256,116 @@ pub fn face_outflow(
             rho_v_air,
             t_c: ts,
         } => {
-            let external = |xs: f64| {
-                let aw = activity(m, xs, ts);
-                let slope = m.isotherm.water_activity_slope(xs, ts).unwrap_or(0.0);
-                (hm * (aw * c_sat - rho_v_air), hm * c_sat * slope)
+            let iso = &m.isotherm;
+            if xc <= 0.0 || !xc.is_finite() || iso.moisture_and_slope(0.5, ts).is_none() {
+                return air_side_by_moisture(m, law, xc, ts, conduction);
+            }
+            let wet = hm * (c_sat - rho_v_air);
+            if let Some(sat) = iso.saturation_moisture(ts).filter(|x| x.is_finite())
+                && xc > sat
+                && conduction(sat).0 >= wet
+            {
+                let xs = newton_in_bracket(
+                    |xs| {
+                        let (c, _, c_s) = conduction(xs);
+                        (c - wet, c_s)
+                    },
+                    sat,
+                    xc,
+                    guess,
+                );
+                return (wet, 0.0, xs, xs);
+            }
+            let balance = |aw: f64| match iso.moisture_and_slope(aw, ts) {
+                Some((xs, slope)) => {
+                    let (c, _, c_s) = conduction(xs);
+                    (c - hm * (aw * c_sat - rho_v_air), c_s * slope - hm * c_sat)
+                }
+                None => (f64::NAN, f64::NAN),
             };
-            let rh = if c_sat > 0.0 { rho_v_air / c_sat } else { 0.0 };
-            let x_eq = (rh < 1.0)
-                .then(|| m.isotherm.equilibrium_moisture(rh, ts))
-                .flatten()
-                .filter(|x| x.is_finite());
-            surface_balance(conduction, external, xc, x_eq)
+            let aw = newton_in_bracket(balance, 0.0, 1.0, guess);
+            let Some((xs, slope)) = iso.moisture_and_slope(aw, ts) else {
+                return air_side_by_moisture(m, law, xc, ts, conduction);
+            };
+            let (_, c_c, c_s) = conduction(xs);
+            let denom = c_s * slope - hm * c_sat;
+            let daw = if denom != 0.0 && denom.is_finite() {
+                -c_c / denom
+            } else {
+                0.0
+            };
+            (hm * (aw * c_sat - rho_v_air), hm * c_sat * daw, xs, aw)
         }
     }
+}
+
+/// The air-side face solved for the surface moisture with the isotherm inverted (the general
+/// fallback where the forward form cannot be used, such as a cell without water).
+fn air_side_by_moisture(
+    m: &MaterialProps,
+    law: FaceLaw,
+    xc: f64,
+    ts: f64,
+    conduction: impl Fn(f64) -> (f64, f64, f64),
+) -> (f64, f64, f64, f64) {
+    let FaceLaw::AirSide {
+        hm,
+        c_sat,
+        rho_v_air,
+        ..
+    } = law
+    else {
+        return (0.0, 0.0, xc, f64::NAN);
+    };
+    let external = |xs: f64| {
+        let aw = activity(m, xs, ts);
+        let slope = m.isotherm.water_activity_slope(xs, ts).unwrap_or(0.0);
+        (hm * (aw * c_sat - rho_v_air), hm * c_sat * slope)
+    };
+    let rh = if c_sat > 0.0 { rho_v_air / c_sat } else { 0.0 };
+    let x_eq = (rh < 1.0)
+        .then(|| m.isotherm.equilibrium_moisture(rh, ts))
+        .flatten()
+        .filter(|x| x.is_finite());
+    let (j, dj, xs) = surface_balance(conduction, external, xc, x_eq);
+    (j, dj, xs, f64::NAN)
+}
+
+/// Root of a decreasing `f` (value, derivative) in [lo, hi], where f(lo) >= 0 >= f(hi), by
+/// Newton's method from `guess` (the middle when it is outside the bracket or NaN), keeping the
+/// bracket and bisecting whenever a step would leave it or the derivative is unusable.
+fn newton_in_bracket(f: impl Fn(f64) -> (f64, f64), mut lo: f64, mut hi: f64, guess: f64) -> f64 {
+    if hi <= lo || hi.is_nan() || lo.is_nan() {
+        return lo;
+    }
+    let mut x = if guess > lo && guess < hi {
+        guess
+    } else {
+        0.5 * (lo + hi)
+    };
+    for _ in 0..100 {
+        let (v, d) = f(x);
+        if v == 0.0 {
+            return x;
+        }
+        if v > 0.0 {
+            lo = x;
+        } else if v < 0.0 {
+            hi = x;
+        }
+        let mut next = x - v / d;
+        let usable = d < 0.0 && next.is_finite() && next > lo && next < hi;
+        if !usable {
+            next = 0.5 * (lo + hi);
+        }
+        let step = (next - x).abs();
+        x = next;
+        let size = 1e-14 * (1.0 + x.abs());
+        if step <= size || hi - lo <= size {
+            return x;
+        }
+    }
+    x
 }
 
 /// Solves conduction(xs) = external(xs) for the surface moisture xs and returns (outflow,
@@ -284,11 +424,13 @@ pub fn evaluate_faces(
     evaluate_faces_with(problem, laws, t_c, x, ws, true)
 }
 
-/// Evaluates every face flux at state `x` into the workspace with the exposed faces' derivatives
-/// (cheap once the surface is solved), and the interior faces' derivatives when `derivatives` is
-/// set (otherwise those stored are left as they are, for a reused Jacobian); returns the surface
-/// figures. Fresh exposed-face derivatives keep the Newton update's water balance exact to first
-/// order whatever interior derivatives it uses: those cancel between neighbouring cells.
+/// Evaluates every face flux at state `x` into the workspace with the derivatives that come with
+/// it at no extra cost (inside one material, analytic; exposed faces, from the solved surface),
+/// and the derivatives of material boundaries (central differences, four more interface solves
+/// each) only when `derivatives` is set; otherwise those stored are kept, for a reused Jacobian.
+/// Returns the surface figures. Fresh exposed-face derivatives keep the Newton update's water
+/// balance exact to first order whatever interior derivatives it uses: those cancel between
+/// neighbouring cells.
 pub fn evaluate_faces_with(
     problem: &Problem,
     laws: &FaceLaws,
@@ -306,10 +448,8 @@ pub fn evaluate_faces_with(
                 let [f, dl, dr] =
                     same_material(&problem.materials[material], distance, xl, xr, t_c);
                 ws.flux[k] = f;
-                if derivatives {
-                    ws.d_left[k] = dl;
-                    ws.d_right[k] = dr;
-                }
+                ws.d_left[k] = dl;
+                ws.d_right[k] = dr;
             }
             InnerFace::Interface {
                 left,
@@ -345,7 +485,9 @@ pub fn evaluate_faces_with(
     ws.d_right[n] = 0.0;
     if let Some(site) = &problem.face_a {
         let m = &problem.materials[site.material];
-        let (j, dj, xs) = face_outflow(m, site, laws.a, x[site.cell], t_c);
+        let (j, dj, xs, u) =
+            face_outflow_from(m, site, laws.a, x[site.cell], t_c, ws.face_guess[0]);
+        ws.face_guess[0] = u;
         // Outflow at face A runs towards -s.
         ws.flux[0] = -j;
         ws.d_right[0] = -dj;
@@ -354,7 +496,9 @@ pub fn evaluate_faces_with(
     }
     if let Some(site) = &problem.face_b {
         let m = &problem.materials[site.material];
-        let (j, dj, xs) = face_outflow(m, site, laws.b, x[site.cell], t_c);
+        let (j, dj, xs, u) =
+            face_outflow_from(m, site, laws.b, x[site.cell], t_c, ws.face_guess[1]);
+        ws.face_guess[1] = u;
         ws.flux[n] = j;
         ws.d_left[n] = dj;
         s.out_b = j;

@@ -95,9 +95,13 @@ const W: f64 = 0.25 * std::f64::consts::SQRT_2;
 /// the filter stiff diffusion modes would force tiny steps). The scaled error is the largest
 /// |e| over cells against tolerance x moisture scale (and tolerance x temperature scale).
 ///
-/// Dense output: the quadratic through y_n, y_g and y_1 at 0, gamma and 1 (second order, as
-/// the method). Newton starts from that quadratic of the previous step extrapolated to
-/// t + gamma dt, and for the second stage from the line through y_n and y_g.
+/// Dense output: the quadratic through y_n and y_1 with the slope G(y_1) at the end (second
+/// order, as the method). The stage y_g is not used there: for stiff components the trapezoidal
+/// stage swings to the other side of the solution (its amplification tends to -1), so a
+/// quadratic through it would overshoot between steps; the end slope of an L-stable step is
+/// smooth, and for a decaying mode the interpolant is start (1 - s)^2, never past the end.
+/// Newton starts the trapezoidal stage on the line through the previous step's stage and end,
+/// extrapolated to t + gamma dt, and the second stage on the line through y_n and y_g.
 pub struct TrBdf2 {
     block: usize,
     /// Stored quantities at the step start, and the right-hand side being built.
@@ -115,13 +119,17 @@ pub struct TrBdf2 {
     /// The trapezoidal stage's state and the end state of the last attempt.
     stage: State,
     end: State,
-    /// The previous accepted step's stage state, for dense output and the predictor.
+    /// The previous accepted step's stage state, for the predictor.
     kept_stage: State,
+    /// dt times the derivative of the unknowns at the end of the last accepted step.
+    kept_slope: State,
     /// Whether `kept_stage` belongs to the step before the current start, and its length.
     kept_valid: bool,
     kept_dt: f64,
     /// The last attempt's end-of-step inflow and rates (the next step's start when accepted).
     r1: Rates,
+    /// The derivative of the unknowns at the last attempt's end.
+    end_slope: State,
     /// Error scratch.
     err: Vec<f64>,
     settings: NewtonSettings,
@@ -155,9 +163,11 @@ impl TrBdf2 {
             stage: State::zeros(n, coupled),
             end: State::zeros(n, coupled),
             kept_stage: State::zeros(n, coupled),
+            kept_slope: State::zeros(n, coupled),
             kept_valid: false,
             kept_dt: 0.0,
             r1: Rates::default(),
+            end_slope: State::zeros(n, coupled),
             err: vec![0.0; nb],
             settings: NewtonSettings {
                 tol: [
@@ -295,6 +305,7 @@ impl Method for TrBdf2 {
         iterations += it;
         self.g1.copy_from_slice(model.last_inflow());
         self.r1 = r1;
+        model.state_rates(&self.end, &self.g1, &mut self.end_slope);
         // Embedded error estimate, filtered by the stage matrix.
         let (c0, cg, c1) = ((4.0 * W - 1.0) / 3.0, -1.0 / 3.0, 2.0 * D / 3.0);
         for (((e, a), b), c) in self
@@ -336,31 +347,39 @@ impl Method for TrBdf2 {
         self.g0_valid = true;
         self.g0_time = t_end;
         std::mem::swap(&mut self.kept_stage, &mut self.stage);
+        std::mem::swap(&mut self.kept_slope, &mut self.end_slope);
+        for v in self
+            .kept_slope
+            .moisture
+            .iter_mut()
+            .chain(self.kept_slope.temperature.iter_mut())
+        {
+            *v *= dt;
+        }
         self.kept_valid = true;
         self.kept_dt = dt;
     }
 
     fn interpolate(&self, s: f64, start: &State, end: &State, out: &mut State) {
-        // Lagrange quadratic through 0, gamma and 1.
-        let l0 = (s - GAMMA) * (s - 1.0) / GAMMA;
-        let lg = s * (s - 1.0) / (GAMMA * (GAMMA - 1.0));
-        let l1 = s * (s - GAMMA) / (1.0 - GAMMA);
+        // The quadratic through the start and the end with the end's slope: with
+        // D = end - start and S = dt y'(end), p(s) = start + (2 D - S) s + (S - D) s^2.
+        let (a, b) = (s * (2.0 - s), s * (s - 1.0));
         out.clone_from(end);
-        for ((o, a), b) in out
+        for ((o, y0), sl) in out
             .moisture
             .iter_mut()
             .zip(&start.moisture)
-            .zip(&self.kept_stage.moisture)
+            .zip(&self.kept_slope.moisture)
         {
-            *o = l0 * a + lg * b + l1 * *o;
+            *o = y0 + a * (*o - y0) + b * sl;
         }
-        for ((o, a), b) in out
+        for ((o, y0), sl) in out
             .temperature
             .iter_mut()
             .zip(&start.temperature)
-            .zip(&self.kept_stage.temperature)
+            .zip(&self.kept_slope.temperature)
         {
-            *o = l0 * a + lg * b + l1 * *o;
+            *o = y0 + a * (*o - y0) + b * sl;
         }
     }
 

@@ -62,6 +62,10 @@ pub trait Model {
     /// The net inflow at the last stage solution.
     fn last_inflow(&self) -> &[f64];
 
+    /// The time derivative of the unknowns at `state` from its net inflow `g` (dX/dt, and dT/dt
+    /// in coupled runs), into `out`.
+    fn state_rates(&self, state: &State, g: &[f64], out: &mut State);
+
     /// Solves `v` in place with the last stage's Newton matrix (`dU/dy - c_dt dG/dy`): an error in
     /// stored quantities becomes one in the unknowns, damped where the problem is stiff.
     fn filter(&mut self, v: &mut [f64]) -> bool;
@@ -180,6 +184,12 @@ impl Model for Moisture<'_> {
         &self.ws.inflow
     }
 
+    fn state_rates(&self, _state: &State, g: &[f64], out: &mut State) {
+        for ((o, g), m) in out.moisture.iter_mut().zip(g).zip(&self.problem.dry_mass) {
+            *o = g / m;
+        }
+    }
+
     fn filter(&mut self, v: &mut [f64]) -> bool {
         flux::filter(&mut self.ws, v)
     }
@@ -289,6 +299,23 @@ impl Model for HeatAndMoisture<'_> {
 
     fn last_inflow(&self) -> &[f64] {
         &self.ws.inflow
+    }
+
+    fn state_rates(&self, state: &State, g: &[f64], out: &mut State) {
+        let p = self.problem;
+        let Some(thermal) = &p.thermal else {
+            return;
+        };
+        for i in 0..state.moisture.len() {
+            // E = m (c_s + c_w X) T: dE/dt = m c_w T dX/dt + m (c_s + c_w X) dT/dt.
+            let m = p.dry_mass[i];
+            let (x, t) = (state.moisture[i], state.temperature[i]);
+            let cs = thermal.specific_heat[p.cell_material[i]];
+            let dx = g[2 * i] / m;
+            out.moisture[i] = dx;
+            out.temperature[i] = (g[2 * i + 1] - m * super::problem::WATER_SPECIFIC_HEAT * t * dx)
+                / (m * (cs + super::problem::WATER_SPECIFIC_HEAT * x));
+        }
     }
 
     fn filter(&mut self, v: &mut [f64]) -> bool {

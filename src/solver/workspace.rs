@@ -32,6 +32,8 @@ pub struct Workspace {
     pub linear_solves: u64,
     /// Evaluations of the face derivatives.
     pub jacobian_evaluations: u64,
+    /// The last solved unknown of each exposed face (A, B), to start the next solve from.
+    pub face_guess: [f64; 2],
 }
 
 impl Workspace {
@@ -52,6 +54,7 @@ impl Workspace {
             rate: 1.0,
             linear_solves: 0,
             jacobian_evaluations: 0,
+            face_guess: [f64::NAN; 2],
         }
     }
 }
