@@ -107,6 +107,8 @@ pub struct CoupledWorkspace {
     pub linear_solves: u64,
     /// Evaluations of the face derivative blocks.
     pub jacobian_evaluations: u64,
+    /// The last solved (surface temperature, water-side unknown) of faces A and B.
+    pub face_guess: [[f64; 2]; 2],
 }
 
 impl CoupledWorkspace {
@@ -127,6 +129,7 @@ impl CoupledWorkspace {
             rate: 1.0,
             linear_solves: 0,
             jacobian_evaluations: 0,
+            face_guess: [[f64::NAN; 2]; 2],
         }
     }
 }
@@ -296,10 +299,16 @@ pub fn solve_face(
     t_c: f64,
     scale: f64,
 ) -> FaceSolution {
-    solve_face_with(m, k, site, face, (x_c, t_c), scale, true)
+    solve_face_with(m, k, site, face, (x_c, t_c), scale, true, [f64::NAN; 2]).0
 }
 
-/// As [`solve_face`], with the derivatives (zero in the result) skipped unless `derivatives`.
+/// As [`solve_face`], with the derivatives (zero in the result) skipped unless `derivatives`,
+/// started from `guess` (the surface temperature and the water-side unknown of an earlier solve,
+/// NaN for none); returns the solution and the solved (temperature, unknown) for the next call.
+/// The surface temperature is found by the secant method from the guess (superlinear, a few
+/// evaluations when the guess is close), and by a widened bracket and the Illinois method when
+/// the secant steps stray; each evaluation's water side starts from the last one's unknown.
+#[allow(clippy::too_many_arguments)]
 fn solve_face_with(
     m: &MaterialProps,
     k: f64,
@@ -308,17 +317,78 @@ fn solve_face_with(
     (x_c, t_c): (f64, f64),
     scale: f64,
     derivatives: bool,
-) -> FaceSolution {
+    guess: [f64; 2],
+) -> (FaceSolution, [f64; 2]) {
+    let unknown = std::cell::Cell::new(guess[1]);
     let water_at = |t_s: f64| {
-        let (j, _, x_s) =
-            flux::face_outflow(m, site, law_at(face.law, t_s), x_c, 0.5 * (t_c + t_s));
+        let (j, _, x_s, u) = flux::face_outflow_from(
+            m,
+            site,
+            law_at(face.law, t_s),
+            x_c,
+            0.5 * (t_c + t_s),
+            unknown.get(),
+        );
+        if u.is_finite() {
+            unknown.set(u);
+        }
         (j, x_s)
     };
     let heat = |t_s: f64| {
         let (j, _) = water_at(t_s);
         k * (t_s - t_c) / site.half_width - face.h * (face.t_air - t_s) + j * latent_heat_j_kg(t_s)
     };
-    // Bracket the surface temperature, widening from the span of cell and air temperatures.
+    let t_s = secant_from(&heat, guess[0]).unwrap_or_else(|| bracketed_surface(&heat, t_c, face));
+    let solution = face_solution(
+        m,
+        k,
+        site,
+        face,
+        (x_c, t_c),
+        scale,
+        derivatives,
+        t_s,
+        water_at,
+    );
+    (solution, [t_s, unknown.get()])
+}
+
+/// The root of the increasing `f` by the secant method from `guess`, or `None` when the guess is
+/// missing or the steps stray (too long, not finite, or not converged in a few).
+fn secant_from(f: &impl Fn(f64) -> f64, guess: f64) -> Option<f64> {
+    if !guess.is_finite() {
+        return None;
+    }
+    let (mut x0, mut f0) = (guess, f(guess));
+    if f0 == 0.0 {
+        return Some(x0);
+    }
+    let mut x1 = guess + 1e-3 * (1.0 + guess.abs());
+    let mut f1 = f(x1);
+    for _ in 0..12 {
+        let slope = (f1 - f0) / (x1 - x0);
+        if !(slope > 0.0 && slope.is_finite()) {
+            return None;
+        }
+        let x2 = x1 - f1 / slope;
+        if !x2.is_finite() || (x2 - guess).abs() > 50.0 {
+            return None;
+        }
+        if (x2 - x1).abs() <= 1e-12 * (1.0 + x2.abs()) {
+            return Some(x2);
+        }
+        (x0, f0) = (x1, f1);
+        x1 = x2;
+        f1 = f(x1);
+        if f1 == 0.0 {
+            return Some(x1);
+        }
+    }
+    None
+}
+
+/// The surface temperature from a bracket widened from the span of cell and air temperatures.
+fn bracketed_surface(heat: &impl Fn(f64) -> f64, t_c: f64, face: &HeatFace) -> f64 {
     let (mut lo, mut hi) = (t_c.min(face.t_air), t_c.max(face.t_air));
     let mut step = 1.0_f64.max(0.1 * (hi - lo));
     for _ in 0..40 {
@@ -336,11 +406,26 @@ fn solve_face_with(
         hi += step;
         step *= 2.0;
     }
-    let t_s = if hi > lo {
+    if hi > lo {
         flux::bracketed_root(heat, lo, hi, 1e-13)
     } else {
         lo
-    };
+    }
+}
+
+/// The face's rates at the solved surface temperature `t_s`, with their derivatives when asked.
+#[allow(clippy::too_many_arguments)]
+fn face_solution(
+    m: &MaterialProps,
+    k: f64,
+    site: &FaceSite,
+    face: &HeatFace,
+    (x_c, t_c): (f64, f64),
+    scale: f64,
+    derivatives: bool,
+    t_s: f64,
+    water_at: impl Fn(f64) -> (f64, f64),
+) -> FaceSolution {
     let (_, x_s) = water_at(t_s);
     // Implicit-function theorem: ds/dc = -Gs^-1 Gc.
     let s = [x_s, t_s];
@@ -493,7 +578,7 @@ pub fn evaluate_faces_with(
     if let Some(site) = &problem.face_a {
         let m = &problem.materials[site.material];
         let kc = thermal.conductivity[site.material];
-        let s = solve_face_with(
+        let (s, guess) = solve_face_with(
             m,
             kc,
             site,
@@ -501,7 +586,9 @@ pub fn evaluate_faces_with(
             (x[site.cell], t[site.cell]),
             scale,
             true,
+            ws.face_guess[0],
         );
+        ws.face_guess[0] = guess;
         // Face A's fluxes run towards -s: water out is -F_0, energy in is +Q_0; both depend on
         // the cell to the face's right (cell 0).
         ws.water[0] = -s.outflow;
@@ -515,7 +602,7 @@ pub fn evaluate_faces_with(
     if let Some(site) = &problem.face_b {
         let m = &problem.materials[site.material];
         let kc = thermal.conductivity[site.material];
-        let s = solve_face_with(
+        let (s, guess) = solve_face_with(
             m,
             kc,
             site,
@@ -523,7 +610,9 @@ pub fn evaluate_faces_with(
             (x[site.cell], t[site.cell]),
             scale,
             true,
+            ws.face_guess[1],
         );
+        ws.face_guess[1] = guess;
         ws.water[n] = s.outflow;
         ws.energy[n] = -s.energy_in;
         ws.deriv[n] = [
