@@ -10,7 +10,7 @@ use super::problem::{FaceLaw, FaceSite, InnerFace, MaterialProps, Problem};
 use super::tridiag;
 use super::workspace::Workspace;
 
-/// Maximum Newton iterations per backward-Euler solve before the step is rejected.
+/// Maximum Newton iterations per stage solve before the step is rejected.
 pub const MAX_NEWTON: usize = 25;
 
 /// Conditions at the two exposed faces during one solve.

@@ -117,8 +117,10 @@ pub struct Stats {
     pub linear_solves: u64,
     /// Extra attempts spent landing on a moisture trigger.
     pub trigger_refinements: u64,
-    /// Evaluations of the face derivatives (the Jacobian); fewer than the linear solves while
-    /// a Jacobian is reused.
+    /// Evaluations of the Jacobian parts that cost extra face solves (the finite differences at
+    /// material boundaries), counted once per fresh evaluation; fewer than the linear solves while
+    /// they are reused. Derivatives inside a material and at exposed faces come with every flux
+    /// evaluation and are not counted.
     pub jacobian_evaluations: u64,
 }
 
