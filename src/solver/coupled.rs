@@ -319,6 +319,9 @@ fn solve_face_with(
     derivatives: bool,
     guess: [f64; 2],
 ) -> (FaceSolution, [f64; 2]) {
+    if let Some(solved) = air_side_newton(m, k, site, face, (x_c, t_c), guess) {
+        return solved;
+    }
     let unknown = std::cell::Cell::new(guess[1]);
     let water_at = |t_s: f64| {
         let (j, _, x_s, u) = flux::face_outflow_from(
@@ -351,6 +354,124 @@ fn solve_face_with(
         water_at,
     );
     (solution, [t_s, unknown.get()])
+}
+
+/// The face equations at one (a, T_s): residuals, their 2x2 matrix in (a, T_s), their
+/// derivatives with respect to the cell (X_c, T_c), and (j, dj/da, dj/dT_s, X_s).
+type FaceSystem = ([f64; 2], [[f64; 2]; 2], [[f64; 2]; 2], [f64; 4]);
+
+/// An air-side face solved by Newton's method on both surface unknowns at once, the water
+/// activity a and the temperature T_s, from the face's last solution (the isotherm evaluated
+/// forward, X_s = X(a, T_s)), with analytic derivatives (finite differences only for the
+/// temperature slopes of the isotherm and of the saturated vapour density):
+///
+/// - g1 = rho D (X_c - X_s) / delta - hm (a c_sat(T_s) - rho_v) = 0
+/// - g2 = k (T_s - T_c) / delta - h (T_air - T_s) + j L_v(T_s) = 0
+///
+/// The rates' derivatives with respect to the cell follow from the same 2x2 matrix
+/// (implicit-function theorem). `None` (the caller then uses the bracketed solve) for other laws,
+/// without a guess, when an iterate leaves 0 < a < 1 (the surface may be wet) or the iteration does
+/// not converge in a few steps.
+fn air_side_newton(
+    m: &MaterialProps,
+    k: f64,
+    site: &FaceSite,
+    face: &HeatFace,
+    (x_c, t_c): (f64, f64),
+    guess: [f64; 2],
+) -> Option<(FaceSolution, [f64; 2])> {
+    let FaceLaw::AirSide { hm, rho_v_air, .. } = face.law else {
+        return None;
+    };
+    let [mut t_s, mut a] = guess;
+    if !(t_s.is_finite() && a > 0.0 && a < 1.0) {
+        return None;
+    }
+    let delta = site.half_width;
+    let g = m.density / delta;
+    // Everything at (a, T_s): residuals, their 2x2 matrix, the cell derivatives and the rates.
+    let evaluate = |a: f64, t_s: f64| -> Option<FaceSystem> {
+        let (x_s, x_a) = m.isotherm.moisture_and_slope(a, t_s)?;
+        let et = 1e-4;
+        let x_t = (m.isotherm.equilibrium_moisture(a, t_s + et)?
+            - m.isotherm.equilibrium_moisture(a, t_s - et)?)
+            / (2.0 * et);
+        let c_sat = saturated_vapour_density(t_s);
+        let c_sat_t =
+            (saturated_vapour_density(t_s + et) - saturated_vapour_density(t_s - et)) / (2.0 * et);
+        let (xm, tm) = (0.5 * (x_c + x_s), 0.5 * (t_c + t_s));
+        let d = m.diffusivity.at(xm, tm);
+        let d_x = m.diffusivity.slope_x(xm, tm);
+        let d_t = m.diffusivity.slope_t(xm, tm);
+        let diff = x_c - x_s;
+        let cond = g * d * diff;
+        let c_s = g * (0.5 * d_x * diff - d);
+        let c_c = g * (0.5 * d_x * diff + d);
+        let c_tm = g * d_t * diff;
+        let j = hm * (a * c_sat - rho_v_air);
+        let (j_a, j_t) = (hm * c_sat, hm * a * c_sat_t);
+        let lv = latent_heat_j_kg(t_s);
+        let lv_t = (latent_heat_j_kg(t_s + et) - latent_heat_j_kg(t_s - et)) / (2.0 * et);
+        let r = [
+            cond - j,
+            k * (t_s - t_c) / delta - face.h * (face.t_air - t_s) + j * lv,
+        ];
+        let gs = [
+            [c_s * x_a - j_a, c_s * x_t + 0.5 * c_tm - j_t],
+            [j_a * lv, k / delta + face.h + j_t * lv + j * lv_t],
+        ];
+        let gc = [[c_c, 0.5 * c_tm], [0.0, -k / delta]];
+        Some((r, gs, gc, [j, j_a, j_t, x_s]))
+    };
+    let solve = |m2: &[[f64; 2]; 2], r: [f64; 2]| -> Option<[f64; 2]> {
+        let det = m2[0][0] * m2[1][1] - m2[0][1] * m2[1][0];
+        if det == 0.0 || !det.is_finite() {
+            return None;
+        }
+        Some([
+            (m2[1][1] * r[0] - m2[0][1] * r[1]) / det,
+            (m2[0][0] * r[1] - m2[1][0] * r[0]) / det,
+        ])
+    };
+    for _ in 0..8 {
+        let (r, gs, _, _) = evaluate(a, t_s)?;
+        let [da, dt] = solve(&gs, r)?;
+        a -= da;
+        t_s -= dt;
+        if !(a > 0.0 && a < 1.0 && t_s.is_finite()) {
+            return None;
+        }
+        if da.abs() <= 1e-13 && dt.abs() <= 1e-11 * (1.0 + t_s.abs()) {
+            let (_, gs, gc, [j, j_a, j_t, x_s]) = evaluate(a, t_s)?;
+            // ds/dc = -Gs^-1 Gc, column by column.
+            let col = |b: usize| solve(&gs, [gc[0][b], gc[1][b]]).map(|v| [-v[0], -v[1]]);
+            let (d_x, d_t) = (col(0)?, col(1)?);
+            let lv = latent_heat_j_kg(t_s);
+            let et = 1e-4;
+            let lv_t = (latent_heat_j_kg(t_s + et) - latent_heat_j_kg(t_s - et)) / (2.0 * et);
+            let mut d_outflow = [0.0; 2];
+            let mut d_energy = [0.0; 2];
+            for (b, ds) in [d_x, d_t].into_iter().enumerate() {
+                let dj = j_a * ds[0] + j_t * ds[1];
+                let dts = ds[1];
+                d_outflow[b] = dj;
+                d_energy[b] = -face.h * dts - (lv + CW * t_s) * dj - j * (lv_t + CW) * dts;
+            }
+            let convective = face.h * (face.t_air - t_s);
+            let solution = FaceSolution {
+                outflow: j,
+                energy_in: convective - j * (lv + CW * t_s),
+                convective,
+                latent: j * lv,
+                x_s,
+                t_s,
+                d_outflow,
+                d_energy,
+            };
+            return Some((solution, [t_s, a]));
+        }
+    }
+    None
 }
 
 /// The root of the increasing `f` by the secant method from `guess`, or `None` when the guess is
