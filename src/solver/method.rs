@@ -54,6 +54,9 @@ pub trait Method {
     /// The end state of the last successful attempt.
     fn candidate(&self) -> &State;
 
+    /// The time derivative of the unknowns at the candidate's end.
+    fn candidate_slope(&self) -> &State;
+
     /// Swaps the candidate with `state` (the stepper accepts the step of `dt` that ends at
     /// `t_end`), and keeps what dense output over the accepted step needs.
     fn accept(&mut self, state: &mut State, t_end: f64, dt: f64);
@@ -337,6 +340,10 @@ impl Method for TrBdf2 {
 
     fn candidate(&self) -> &State {
         &self.end
+    }
+
+    fn candidate_slope(&self) -> &State {
+        &self.end_slope
     }
 
     fn accept(&mut self, state: &mut State, t_end: f64, dt: f64) {

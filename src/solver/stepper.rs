@@ -542,6 +542,31 @@ impl<'p> Stepper<'p> {
         }
     }
 
+    /// Where the mean moisture of the method's interpolant over the candidate step (of length
+    /// `dt`, from mean `before`) crosses `level`, as a step length; `None` without a crossing.
+    fn interpolated_crossing(&self, before: f64, level: f64, dt: f64) -> Option<f64> {
+        let end = self.problem.mean(&self.method.candidate().moisture);
+        let slope = dt * self.problem.mean(&self.method.candidate_slope().moisture);
+        // p(s) = before + (2 D - S) s + (S - D) s^2 with D = end - before, S = dt mean'(end).
+        let delta = end - before;
+        let (a, b, c) = (slope - delta, 2.0 * delta - slope, before - level);
+        let in_step = |s: f64| (s > 0.0 && s < 1.0).then_some(s);
+        let s = if a.abs() <= 1e-12 * b.abs() {
+            in_step(-c / b)
+        } else {
+            let disc = b * b - 4.0 * a * c;
+            if disc < 0.0 {
+                return None;
+            }
+            // The two roots without cancellation; the first inside the step.
+            let q = -0.5 * (b + b.signum() * disc.sqrt());
+            let (r1, r2) = (q / a, c / q);
+            let (r1, r2) = if r1 <= r2 { (r1, r2) } else { (r2, r1) };
+            in_step(r1).or_else(|| in_step(r2))
+        };
+        s.map(|s| s * dt)
+    }
+
     /// Shortens the step until the mean moisture lands on `level` (Illinois secant on dt).
     #[allow(clippy::too_many_arguments)]
     fn land_on_trigger(
@@ -562,7 +587,17 @@ impl<'p> Stepper<'p> {
         let mut buffers_hold_best = true;
         if f_hi.abs() > tol && f_lo.abs() > tol {
             for _ in 0..30 {
-                let mut d = hi - f_hi * (hi - lo) / (f_hi - f_lo);
+                // The crossing of the held candidate's interpolant first, else the secant, else
+                // the middle of the bracket.
+                let mut d = if buffers_hold_best {
+                    self.interpolated_crossing(before, level, best_dt)
+                        .unwrap_or(f64::NAN)
+                } else {
+                    f64::NAN
+                };
+                if !(d > lo && d < hi) {
+                    d = hi - f_hi * (hi - lo) / (f_hi - f_lo);
+                }
                 if !(d > lo && d < hi) {
                     d = 0.5 * (lo + hi);
                 }
