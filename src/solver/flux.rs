@@ -507,6 +507,39 @@ pub fn evaluate_faces_with(
     s
 }
 
+/// The surface figures of state `x` alone (only the exposed faces are solved; the interior
+/// fluxes in the workspace are left as they are).
+pub fn exposed_surfaces(
+    problem: &Problem,
+    laws: &FaceLaws,
+    t_c: f64,
+    x: &[f64],
+    ws: &mut Workspace,
+) -> Surfaces {
+    let n = x.len();
+    let mut s = Surfaces {
+        x_a: x[0],
+        x_b: x[n - 1],
+        t_a: t_c,
+        t_b: t_c,
+        ..Surfaces::default()
+    };
+    for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
+        if let Some(site) = site {
+            let m = &problem.materials[site.material];
+            let (j, _, xs, u) =
+                face_outflow_from(m, site, law, x[site.cell], t_c, ws.face_guess[side]);
+            ws.face_guess[side] = u;
+            if side == 0 {
+                (s.out_a, s.x_a) = (j, xs);
+            } else {
+                (s.out_b, s.x_b) = (j, xs);
+            }
+        }
+    }
+    s
+}
+
 /// Why a stage solve failed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum NewtonFailure {

@@ -203,13 +203,12 @@ impl Model for Moisture<'_> {
     }
 
     fn surfaces(&mut self, c: &Conditions, state: &State) -> Surfaces {
-        flux::evaluate_faces_with(
+        flux::exposed_surfaces(
             self.problem,
             &c.laws,
             c.t_air,
             &state.moisture,
             &mut self.ws,
-            false,
         )
     }
 
