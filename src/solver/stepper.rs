@@ -43,9 +43,9 @@ impl Exchanged {
 
 /// Step-size control from the method's local error estimate.
 ///
-/// With `err` the method's scaled error (the largest |estimated local error| over cells against
-/// tolerance x moisture scale, and tolerance x temperature scale in coupled runs), a step is
-/// accepted when `err <= 1`. The next step is
+/// With `err` the method's scaled error (the dry-mass weighted root mean square over cells of the
+/// estimated local error against tolerance x moisture scale, and against tolerance x temperature
+/// scale in coupled runs), a step is accepted when `err <= 1`. The next step is
 ///
 ///   dt_new = dt * clamp(safety * err^(-exponent), min_factor, max_factor)
 ///
