@@ -158,10 +158,13 @@ proptest! {
         let x_eq = l.0.moisture_at(rh, t);
         let (lo, hi) = (x0.min(x_eq), x0.max(x_eq));
         let r = solve(&c);
-        // Step doubling reports the Richardson extrapolation of two half steps, which is
-        // accurate to the local error tolerance but not bound-preserving: allow 1 % of the
-        // tolerance times the range (a found overshoot was 3e-8 of the value).
-        let slack = 1e-2 * c.tolerance * (hi - lo);
+        // The integrator is accurate to the local error tolerance but not bound-preserving:
+        // TR-BDF2's stability function (1 + (sqrt 2 - 1) z) / (1 - (1 - 1/sqrt 2) z)^2 is negative
+        // for z < -(1 + sqrt 2), so a step several times longer than the slowest decay time
+        // carries a small remaining deviation a fraction of it past the equilibrium. The error
+        // test bounds that by the tolerance times the moisture swing per step, so that is the
+        // slack (a found overshoot was 1.1 % of it, 5e-6 of the value, near equilibrium).
+        let slack = c.tolerance * (hi - lo);
         for p in &r.profiles {
             for &x in p.moisture.iter().flatten() {
                 prop_assert!(x >= lo - slack && x <= hi + slack, "{x} outside [{lo}, {hi}] at {} s", p.time);

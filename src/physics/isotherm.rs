@@ -71,6 +71,42 @@ impl Isotherm {
         }
     }
 
+    /// Equilibrium moisture X and its slope dX/daw at water activity `aw` and temperature `t_c`,
+    /// both analytic (the forward direction: no inversion). `aw` is clamped as in
+    /// [`Isotherm::equilibrium_moisture`]; the slope may be infinite at aw = 0 (Oswin and
+    /// Henderson with b < 1). `None` as for `equilibrium_moisture`.
+    pub fn moisture_and_slope(&self, aw: f64, t_c: f64) -> Option<(f64, f64)> {
+        let aw = aw.clamp(0.0, AW_MAX);
+        match *self {
+            Isotherm::None => None,
+            Isotherm::Gab { xm, c, k } => {
+                // dX/daw = Xm C K (1 + (C − 1) y²) / [(1 − y)(1 + (C − 1) y)]², y = K aw
+                let y = k * aw;
+                let g = (1.0 - y) * (1.0 + (c - 1.0) * y);
+                Some((
+                    gab_x(xm, c, k, aw),
+                    xm * c * k * (1.0 + (c - 1.0) * y * y) / (g * g),
+                ))
+            }
+            Isotherm::Oswin { a, b } => {
+                // X = a s^b, s = aw / (1 − aw): dX/daw = b X / (aw (1 − aw))
+                let x = a * (aw / (1.0 - aw)).powf(b);
+                Some((x, b * x / (aw * (1.0 - aw))))
+            }
+            Isotherm::Henderson { a, b, c } => {
+                // 100 X = (z / A)^(1/b), z = −ln(1 − aw): dX/daw = X / (b z (1 − aw))
+                let big_a = henderson_a(a, c, t_c)?;
+                let z = -(-aw).ln_1p();
+                let x = (z / big_a).powf(1.0 / b) / 100.0;
+                Some((x, x / (b * z * (1.0 - aw))))
+            }
+            Isotherm::Wood => {
+                let w = WoodConstants::at(t_c);
+                Some((w.moisture_pct(aw) / 100.0, w.moisture_pct_slope(aw) / 100.0))
+            }
+        }
+    }
+
     /// Water activity in [0, 1] at moisture `x` (dry fraction) and temperature `t_c`, the inverse
     /// of [`Isotherm::equilibrium_moisture`]; monotone non-decreasing in `x`.
     ///
@@ -356,5 +392,44 @@ impl WoodConstants {
             };
         }
         h
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The forward slope is the derivative of the forward isotherm (central differences) and its
+    /// moisture is `equilibrium_moisture`'s, for every kind.
+    #[test]
+    fn moisture_and_slope_match_the_isotherm() {
+        let kinds = [
+            Isotherm::Gab {
+                xm: 0.08,
+                c: 10.0,
+                k: 0.85,
+            },
+            Isotherm::Oswin { a: 0.12, b: 0.35 },
+            Isotherm::Henderson {
+                a: 1e-4,
+                b: 1.5,
+                c: 50.0,
+            },
+            Isotherm::Wood,
+        ];
+        for iso in kinds {
+            for aw in [0.1, 0.4, 0.75, 0.95] {
+                let (x, slope) = iso.moisture_and_slope(aw, 40.0).expect("defined");
+                assert_eq!(Some(x), iso.equilibrium_moisture(aw, 40.0));
+                let h = 1e-6;
+                let fd = (iso.equilibrium_moisture(aw + h, 40.0).unwrap_or(f64::NAN)
+                    - iso.equilibrium_moisture(aw - h, 40.0).unwrap_or(f64::NAN))
+                    / (2.0 * h);
+                assert!(
+                    (slope - fd).abs() <= 1e-6 * fd.abs(),
+                    "{iso:?} at {aw}: {slope} vs {fd}"
+                );
+            }
+        }
     }
 }

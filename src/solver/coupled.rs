@@ -1,6 +1,6 @@
 //! The coupled heat-and-moisture model: two unknowns per cell (moisture X and temperature T),
-//! face fluxes of water and energy with their 2x2 derivative blocks, and one backward-Euler
-//! Newton solve on the block-tridiagonal system.
+//! face fluxes of water and energy with their 2x2 derivative blocks, and the Newton solve of one
+//! implicit stage on the block-tridiagonal system.
 //!
 //! Per cell, in conservative form (per unit normalised area, m_i the cell's dry mass):
 //!
@@ -19,11 +19,12 @@
 //!
 //! where delta is the half cell. The energy entering the body through the face is
 //! h (T_air - T_s) - j (L_v(T_s) + c_w T_s): the vapour leaves with its latent heat and the
-//! sensible heat of the liquid it came from. Water and energy are thus conserved to the Newton
-//! tolerance in every solve, and the run reports both balances.
+//! sensible heat of the liquid it came from. The stages advance the stored water and energy, so
+//! both are conserved up to the faces' nonlinearity over the last Newton update, and the run
+//! reports both balances.
 
 use super::blocktri::{self, Block};
-use super::flux::{self, NEWTON_FLOOR, NEWTON_TOLERANCE, NewtonFailure};
+use super::flux::{self, NEWTON_FRACTION, NewtonFailure, NewtonSettings};
 use super::problem::{
     FaceLaw, FaceSite, InnerFace, MaterialProps, Problem, Thermal, WATER_SPECIFIC_HEAT,
     saturated_vapour_density,
@@ -31,8 +32,11 @@ use super::problem::{
 use super::state::State;
 use crate::physics::psychro::latent_heat_j_kg;
 
-/// Maximum Newton iterations per coupled backward-Euler solve.
+/// Maximum Newton iterations per coupled stage solve.
 const MAX_NEWTON: usize = 25;
+
+/// Above this contraction rate a reused Jacobian is refreshed.
+const REFRESH_RATE: f64 = 0.3;
 
 const CW: f64 = WATER_SPECIFIC_HEAT;
 
@@ -93,10 +97,18 @@ pub struct CoupledWorkspace {
     rhs: Vec<[f64; 2]>,
     scratch: Vec<Block>,
     delta: Vec<[f64; 2]>,
-    /// Round-off level of each cell's (water, energy) residual, from the last Jacobian.
-    noise: Vec<[f64; 2]>,
+    /// Net (water, energy) inflow of each cell at the last evaluation, interleaved, 2n.
+    pub inflow: Vec<f64>,
+    /// Whether `deriv` holds derivative blocks that may be reused.
+    pub jacobian_valid: bool,
+    /// The last contraction rate of the Newton iteration.
+    pub rate: f64,
     /// Linear solves done.
     pub linear_solves: u64,
+    /// Evaluations of the face derivative blocks.
+    pub jacobian_evaluations: u64,
+    /// The last solved (surface temperature, water-side unknown) of faces A and B.
+    pub face_guess: [[f64; 2]; 2],
 }
 
 impl CoupledWorkspace {
@@ -112,8 +124,12 @@ impl CoupledWorkspace {
             rhs: vec![[0.0; 2]; n],
             scratch: vec![[0.0; 4]; n],
             delta: vec![[0.0; 2]; n],
-            noise: vec![[0.0; 2]; n],
+            inflow: vec![0.0; 2 * n],
+            jacobian_valid: false,
+            rate: 1.0,
             linear_solves: 0,
+            jacobian_evaluations: 0,
+            face_guess: [[f64::NAN; 2]; 2],
         }
     }
 }
@@ -181,6 +197,7 @@ fn interface(
     (xl, tl): (f64, f64),
     (xr, tr): (f64, f64),
     scale: f64,
+    derivatives: bool,
 ) -> (f64, f64, [[f64; 4]; 2]) {
     let (gl, gr) = (kl / dl, kr / dr);
     let wl = gl / (gl + gr);
@@ -191,13 +208,16 @@ fn interface(
     };
     let ti = wl * tl + (1.0 - wl) * tr;
     let f = water(xl, tl, xr, tr);
+    let q = series * (tl - tr) + CW * ti * f;
+    if !derivatives {
+        return (f, q, [[0.0; 4]; 2]);
+    }
     let (ex_l, ex_r) = (1e-7 * (xl.abs() + scale), 1e-7 * (xr.abs() + scale));
     let (et_l, et_r) = (1e-6 * (tl.abs() + 1.0), 1e-6 * (tr.abs() + 1.0));
     let f_xl = (water(xl + ex_l, tl, xr, tr) - water(xl - ex_l, tl, xr, tr)) / (2.0 * ex_l);
     let f_tl = (water(xl, tl + et_l, xr, tr) - water(xl, tl - et_l, xr, tr)) / (2.0 * et_l);
     let f_xr = (water(xl, tl, xr + ex_r, tr) - water(xl, tl, xr - ex_r, tr)) / (2.0 * ex_r);
     let f_tr = (water(xl, tl, xr, tr + et_r) - water(xl, tl, xr, tr - et_r)) / (2.0 * et_r);
-    let q = series * (tl - tr) + CW * ti * f;
     let q_xl = CW * ti * f_xl;
     let q_xr = CW * ti * f_xr;
     let q_tl = series + CW * (wl * f + ti * f_tl);
@@ -279,16 +299,217 @@ pub fn solve_face(
     t_c: f64,
     scale: f64,
 ) -> FaceSolution {
+    solve_face_with(m, k, site, face, (x_c, t_c), scale, true, [f64::NAN; 2]).0
+}
+
+/// As [`solve_face`], with the derivatives (zero in the result) skipped unless `derivatives`,
+/// started from `guess` (the surface temperature and the water-side unknown of an earlier solve,
+/// NaN for none); returns the solution and the solved (temperature, unknown) for the next call.
+/// The surface temperature is found by the secant method from the guess (superlinear, a few
+/// evaluations when the guess is close), and by a widened bracket and the Illinois method when
+/// the secant steps stray; each evaluation's water side starts from the last one's unknown.
+#[allow(clippy::too_many_arguments)]
+fn solve_face_with(
+    m: &MaterialProps,
+    k: f64,
+    site: &FaceSite,
+    face: &HeatFace,
+    (x_c, t_c): (f64, f64),
+    scale: f64,
+    derivatives: bool,
+    guess: [f64; 2],
+) -> (FaceSolution, [f64; 2]) {
+    if let Some(solved) = air_side_newton(m, k, site, face, (x_c, t_c), guess) {
+        return solved;
+    }
+    let unknown = std::cell::Cell::new(guess[1]);
     let water_at = |t_s: f64| {
-        let (j, _, x_s) =
-            flux::face_outflow(m, site, law_at(face.law, t_s), x_c, 0.5 * (t_c + t_s));
+        let (j, _, x_s, u) = flux::face_outflow_from(
+            m,
+            site,
+            law_at(face.law, t_s),
+            x_c,
+            0.5 * (t_c + t_s),
+            unknown.get(),
+        );
+        if u.is_finite() {
+            unknown.set(u);
+        }
         (j, x_s)
     };
     let heat = |t_s: f64| {
         let (j, _) = water_at(t_s);
         k * (t_s - t_c) / site.half_width - face.h * (face.t_air - t_s) + j * latent_heat_j_kg(t_s)
     };
-    // Bracket the surface temperature, widening from the span of cell and air temperatures.
+    let t_s = secant_from(&heat, guess[0]).unwrap_or_else(|| bracketed_surface(&heat, t_c, face));
+    let solution = face_solution(
+        m,
+        k,
+        site,
+        face,
+        (x_c, t_c),
+        scale,
+        derivatives,
+        t_s,
+        water_at,
+    );
+    (solution, [t_s, unknown.get()])
+}
+
+/// The face equations at one (a, T_s): residuals, their 2x2 matrix in (a, T_s), their
+/// derivatives with respect to the cell (X_c, T_c), and (j, dj/da, dj/dT_s, X_s).
+type FaceSystem = ([f64; 2], [[f64; 2]; 2], [[f64; 2]; 2], [f64; 4]);
+
+/// An air-side face solved by Newton's method on both surface unknowns at once, the water
+/// activity a and the temperature T_s, from the face's last solution (the isotherm evaluated
+/// forward, X_s = X(a, T_s)), with analytic derivatives (finite differences only for the
+/// temperature slopes of the isotherm and of the saturated vapour density):
+///
+/// - g1 = rho D (X_c - X_s) / delta - hm (a c_sat(T_s) - rho_v) = 0
+/// - g2 = k (T_s - T_c) / delta - h (T_air - T_s) + j L_v(T_s) = 0
+///
+/// The rates' derivatives with respect to the cell follow from the same 2x2 matrix
+/// (implicit-function theorem). `None` (the caller then uses the bracketed solve) for other laws,
+/// without a guess, when an iterate leaves 0 < a < 1 (the surface may be wet) or the iteration does
+/// not converge in a few steps.
+fn air_side_newton(
+    m: &MaterialProps,
+    k: f64,
+    site: &FaceSite,
+    face: &HeatFace,
+    (x_c, t_c): (f64, f64),
+    guess: [f64; 2],
+) -> Option<(FaceSolution, [f64; 2])> {
+    let FaceLaw::AirSide { hm, rho_v_air, .. } = face.law else {
+        return None;
+    };
+    let [mut t_s, mut a] = guess;
+    if !(t_s.is_finite() && a > 0.0 && a < 1.0) {
+        return None;
+    }
+    let delta = site.half_width;
+    let g = m.density / delta;
+    // Everything at (a, T_s): residuals, their 2x2 matrix, the cell derivatives and the rates.
+    let evaluate = |a: f64, t_s: f64| -> Option<FaceSystem> {
+        let (x_s, x_a) = m.isotherm.moisture_and_slope(a, t_s)?;
+        let et = 1e-4;
+        let x_t = (m.isotherm.equilibrium_moisture(a, t_s + et)?
+            - m.isotherm.equilibrium_moisture(a, t_s - et)?)
+            / (2.0 * et);
+        let c_sat = saturated_vapour_density(t_s);
+        let c_sat_t =
+            (saturated_vapour_density(t_s + et) - saturated_vapour_density(t_s - et)) / (2.0 * et);
+        let (xm, tm) = (0.5 * (x_c + x_s), 0.5 * (t_c + t_s));
+        let d = m.diffusivity.at(xm, tm);
+        let d_x = m.diffusivity.slope_x(xm, tm);
+        let d_t = m.diffusivity.slope_t(xm, tm);
+        let diff = x_c - x_s;
+        let cond = g * d * diff;
+        let c_s = g * (0.5 * d_x * diff - d);
+        let c_c = g * (0.5 * d_x * diff + d);
+        let c_tm = g * d_t * diff;
+        let j = hm * (a * c_sat - rho_v_air);
+        let (j_a, j_t) = (hm * c_sat, hm * a * c_sat_t);
+        let lv = latent_heat_j_kg(t_s);
+        let lv_t = (latent_heat_j_kg(t_s + et) - latent_heat_j_kg(t_s - et)) / (2.0 * et);
+        let r = [
+            cond - j,
+            k * (t_s - t_c) / delta - face.h * (face.t_air - t_s) + j * lv,
+        ];
+        let gs = [
+            [c_s * x_a - j_a, c_s * x_t + 0.5 * c_tm - j_t],
+            [j_a * lv, k / delta + face.h + j_t * lv + j * lv_t],
+        ];
+        let gc = [[c_c, 0.5 * c_tm], [0.0, -k / delta]];
+        Some((r, gs, gc, [j, j_a, j_t, x_s]))
+    };
+    let solve = |m2: &[[f64; 2]; 2], r: [f64; 2]| -> Option<[f64; 2]> {
+        let det = m2[0][0] * m2[1][1] - m2[0][1] * m2[1][0];
+        if det == 0.0 || !det.is_finite() {
+            return None;
+        }
+        Some([
+            (m2[1][1] * r[0] - m2[0][1] * r[1]) / det,
+            (m2[0][0] * r[1] - m2[1][0] * r[0]) / det,
+        ])
+    };
+    for _ in 0..8 {
+        let (r, gs, _, _) = evaluate(a, t_s)?;
+        let [da, dt] = solve(&gs, r)?;
+        a -= da;
+        t_s -= dt;
+        if !(a > 0.0 && a < 1.0 && t_s.is_finite()) {
+            return None;
+        }
+        if da.abs() <= 1e-13 && dt.abs() <= 1e-11 * (1.0 + t_s.abs()) {
+            let (_, gs, gc, [j, j_a, j_t, x_s]) = evaluate(a, t_s)?;
+            // ds/dc = -Gs^-1 Gc, column by column.
+            let col = |b: usize| solve(&gs, [gc[0][b], gc[1][b]]).map(|v| [-v[0], -v[1]]);
+            let (d_x, d_t) = (col(0)?, col(1)?);
+            let lv = latent_heat_j_kg(t_s);
+            let et = 1e-4;
+            let lv_t = (latent_heat_j_kg(t_s + et) - latent_heat_j_kg(t_s - et)) / (2.0 * et);
+            let mut d_outflow = [0.0; 2];
+            let mut d_energy = [0.0; 2];
+            for (b, ds) in [d_x, d_t].into_iter().enumerate() {
+                let dj = j_a * ds[0] + j_t * ds[1];
+                let dts = ds[1];
+                d_outflow[b] = dj;
+                d_energy[b] = -face.h * dts - (lv + CW * t_s) * dj - j * (lv_t + CW) * dts;
+            }
+            let convective = face.h * (face.t_air - t_s);
+            let solution = FaceSolution {
+                outflow: j,
+                energy_in: convective - j * (lv + CW * t_s),
+                convective,
+                latent: j * lv,
+                x_s,
+                t_s,
+                d_outflow,
+                d_energy,
+            };
+            return Some((solution, [t_s, a]));
+        }
+    }
+    None
+}
+
+/// The root of the increasing `f` by the secant method from `guess`, or `None` when the guess is
+/// missing or the steps stray (too long, not finite, or not converged in a few).
+fn secant_from(f: &impl Fn(f64) -> f64, guess: f64) -> Option<f64> {
+    if !guess.is_finite() {
+        return None;
+    }
+    let (mut x0, mut f0) = (guess, f(guess));
+    if f0 == 0.0 {
+        return Some(x0);
+    }
+    let mut x1 = guess + 1e-3 * (1.0 + guess.abs());
+    let mut f1 = f(x1);
+    for _ in 0..12 {
+        let slope = (f1 - f0) / (x1 - x0);
+        if !(slope > 0.0 && slope.is_finite()) {
+            return None;
+        }
+        let x2 = x1 - f1 / slope;
+        if !x2.is_finite() || (x2 - guess).abs() > 50.0 {
+            return None;
+        }
+        if (x2 - x1).abs() <= 1e-12 * (1.0 + x2.abs()) {
+            return Some(x2);
+        }
+        (x0, f0) = (x1, f1);
+        x1 = x2;
+        f1 = f(x1);
+        if f1 == 0.0 {
+            return Some(x1);
+        }
+    }
+    None
+}
+
+/// The surface temperature from a bracket widened from the span of cell and air temperatures.
+fn bracketed_surface(heat: &impl Fn(f64) -> f64, t_c: f64, face: &HeatFace) -> f64 {
     let (mut lo, mut hi) = (t_c.min(face.t_air), t_c.max(face.t_air));
     let mut step = 1.0_f64.max(0.1 * (hi - lo));
     for _ in 0..40 {
@@ -306,16 +527,44 @@ pub fn solve_face(
         hi += step;
         step *= 2.0;
     }
-    let t_s = if hi > lo {
+    if hi > lo {
         flux::bracketed_root(heat, lo, hi, 1e-13)
     } else {
         lo
-    };
+    }
+}
+
+/// The face's rates at the solved surface temperature `t_s`, with their derivatives when asked.
+#[allow(clippy::too_many_arguments)]
+fn face_solution(
+    m: &MaterialProps,
+    k: f64,
+    site: &FaceSite,
+    face: &HeatFace,
+    (x_c, t_c): (f64, f64),
+    scale: f64,
+    derivatives: bool,
+    t_s: f64,
+    water_at: impl Fn(f64) -> (f64, f64),
+) -> FaceSolution {
     let (_, x_s) = water_at(t_s);
     // Implicit-function theorem: ds/dc = -Gs^-1 Gc.
     let s = [x_s, t_s];
     let c = [x_c, t_c];
     let (_, j) = surface_equations(m, k, site, face, s, c);
+    let lv = latent_heat_j_kg(t_s);
+    let convective = face.h * (face.t_air - t_s);
+    if !derivatives {
+        return FaceSolution {
+            outflow: j,
+            energy_in: convective - j * (lv + CW * t_s),
+            convective,
+            latent: j * lv,
+            x_s,
+            t_s,
+            ..FaceSolution::default()
+        };
+    }
     let eps = [1e-7 * (x_s.abs() + scale), 1e-6 * (t_s.abs() + 1.0)];
     let eps_c = [1e-7 * (x_c.abs() + scale), 1e-6 * (t_c.abs() + 1.0)];
     let mut gs = [[0.0; 2]; 2];
@@ -355,10 +604,8 @@ pub fn solve_face(
             }
         }
     }
-    let lv = latent_heat_j_kg(t_s);
     let dl = 1e-4;
     let lv_slope = (latent_heat_j_kg(t_s + dl) - latent_heat_j_kg(t_s - dl)) / (2.0 * dl);
-    let convective = face.h * (face.t_air - t_s);
     let mut d_outflow = [0.0; 2];
     let mut d_energy = [0.0; 2];
     for b in 0..2 {
@@ -387,6 +634,22 @@ pub fn evaluate_faces(
     faces: &HeatFaces,
     state: &State,
     ws: &mut CoupledWorkspace,
+) -> CoupledSurfaces {
+    evaluate_faces_with(problem, thermal, faces, state, ws, true)
+}
+
+/// As [`evaluate_faces`], with the derivative blocks of material boundaries (central differences,
+/// eight more interface solves each) computed only when `derivatives` is set (otherwise those
+/// stored are kept, for a reused Jacobian); blocks inside one material come with the fluxes. The exposed faces'
+/// blocks are always fresh: they keep the Newton update's water and energy balance exact to
+/// first order, whatever interior blocks it uses (those cancel between neighbouring cells).
+pub fn evaluate_faces_with(
+    problem: &Problem,
+    thermal: &Thermal,
+    faces: &HeatFaces,
+    state: &State,
+    ws: &mut CoupledWorkspace,
+    derivatives: bool,
 ) -> CoupledSurfaces {
     let x = &state.moisture;
     let t = &state.temperature;
@@ -417,11 +680,15 @@ pub fn evaluate_faces(
                 left,
                 right,
                 scale,
+                derivatives,
             ),
         };
         ws.water[k] = f;
         ws.energy[k] = q;
-        ws.deriv[k] = d;
+        // Inside one material the blocks come with the fluxes; a boundary's only when asked.
+        if derivatives || matches!(face, InnerFace::Same { .. }) {
+            ws.deriv[k] = d;
+        }
     }
     for k in [0, n] {
         ws.water[k] = 0.0;
@@ -432,7 +699,17 @@ pub fn evaluate_faces(
     if let Some(site) = &problem.face_a {
         let m = &problem.materials[site.material];
         let kc = thermal.conductivity[site.material];
-        let s = solve_face(m, kc, site, &faces.a, x[site.cell], t[site.cell], scale);
+        let (s, guess) = solve_face_with(
+            m,
+            kc,
+            site,
+            &faces.a,
+            (x[site.cell], t[site.cell]),
+            scale,
+            true,
+            ws.face_guess[0],
+        );
+        ws.face_guess[0] = guess;
         // Face A's fluxes run towards -s: water out is -F_0, energy in is +Q_0; both depend on
         // the cell to the face's right (cell 0).
         ws.water[0] = -s.outflow;
@@ -446,7 +723,17 @@ pub fn evaluate_faces(
     if let Some(site) = &problem.face_b {
         let m = &problem.materials[site.material];
         let kc = thermal.conductivity[site.material];
-        let s = solve_face(m, kc, site, &faces.b, x[site.cell], t[site.cell], scale);
+        let (s, guess) = solve_face_with(
+            m,
+            kc,
+            site,
+            &faces.b,
+            (x[site.cell], t[site.cell]),
+            scale,
+            true,
+            ws.face_guess[1],
+        );
+        ws.face_guess[1] = guess;
         ws.water[n] = s.outflow;
         ws.energy[n] = -s.energy_in;
         ws.deriv[n] = [
@@ -458,67 +745,82 @@ pub fn evaluate_faces(
     out
 }
 
-/// One backward-Euler step of the coupled model from `old` over `dt`, solved by Newton's method
-/// on the 2x2 block-tridiagonal system into `new`. Returns the exposed faces at the converged
-/// state and the iteration count.
-pub fn backward_euler(
+/// Solves one implicit stage of the coupled model, `U_i(u) - c_dt * G_i(u) = b_i` for every cell
+/// (U the stored water and energy, G their net inflow; `b` interleaved water, energy), by Newton's
+/// method on the 2x2 block-tridiagonal system from the guess in `new` (`fallback` when the guess
+/// gives non-finite values). As in `flux::solve_stage`: the face derivative blocks are reused
+/// while the iteration contracts well, it stops when the estimated remaining error is below
+/// `settings.tol` (moisture, temperature), and the faces are evaluated at the state returned, so
+/// `ws.inflow` belongs to it.
+#[allow(clippy::too_many_arguments)]
+pub fn solve_stage(
     problem: &Problem,
     thermal: &Thermal,
     faces: &HeatFaces,
-    dt: f64,
-    old: &State,
+    c_dt: f64,
+    b: &[f64],
     new: &mut State,
+    fallback: &State,
     ws: &mut CoupledWorkspace,
+    settings: &NewtonSettings,
 ) -> Result<(CoupledSurfaces, usize), NewtonFailure> {
-    let n = old.moisture.len();
-    new.copy_from(old);
+    let n = new.moisture.len();
     let areas = &problem.mesh.areas;
     let mass = &problem.dry_mass;
-    let (x_scale, t_scale) = (problem.moisture_scale, thermal.temperature_scale);
+    let [tol_x, tol_t] = settings.tol;
     let mut previous = f64::INFINITY;
     let mut backtracks = 0;
-    ws.noise.fill([0.0; 2]);
+    let mut restarted = false;
+    let mut converged = false;
+    let mut last_update = f64::INFINITY;
     for iteration in 0..=MAX_NEWTON {
-        let surfaces = evaluate_faces(problem, thermal, faces, new, ws);
-        // Each residual is compared with the tolerance or, where large conductances make it
-        // the larger, with the round-off of its own terms (from the last Jacobian).
+        let fresh = !ws.jacobian_valid;
+        let surfaces = evaluate_faces_with(problem, thermal, faces, new, ws, fresh);
+        if fresh {
+            ws.jacobian_valid = true;
+            ws.jacobian_evaluations += 1;
+        }
         let mut worst: f64 = 0.0;
         for i in 0..n {
             let (x, t) = (new.moisture[i], new.temperature[i]);
             let water_in = areas[i] * ws.water[i] - areas[i + 1] * ws.water[i + 1];
             let energy_in = areas[i] * ws.energy[i] - areas[i + 1] * ws.energy[i + 1];
-            let rx = mass[i] * (x - old.moisture[i]) - dt * water_in;
-            let re = energy(problem, thermal, i, x, t)
-                - energy(problem, thermal, i, old.moisture[i], old.temperature[i])
-                - dt * energy_in;
+            ws.inflow[2 * i] = water_in;
+            ws.inflow[2 * i + 1] = energy_in;
+            let rx = mass[i] * x - b[2 * i] - c_dt * water_in;
+            let re = energy(problem, thermal, i, x, t) - b[2 * i + 1] - c_dt * energy_in;
             let cap = capacity(problem, thermal, i, x);
-            let tol_x = (NEWTON_TOLERANCE * x_scale * mass[i]).max(ws.noise[i][0]);
-            let tol_e = (NEWTON_TOLERANCE * t_scale * cap).max(ws.noise[i][1]);
-            worst = worst.max(rx.abs() / tol_x).max(re.abs() / tol_e);
+            worst = worst
+                .max(rx.abs() / (mass[i] * tol_x))
+                .max(re.abs() / (cap * tol_t));
             ws.rhs[i] = [-rx, -re];
         }
-        let floor = NEWTON_FLOOR / NEWTON_TOLERANCE;
-        let converged = worst <= 1.0 || (worst <= floor && worst > 0.1 * previous);
-        if converged && worst.is_finite() {
+        if !worst.is_finite() {
+            if iteration == 0 && !restarted {
+                new.copy_from(fallback);
+                restarted = true;
+                continue;
+            }
+            if iteration > 0 && backtracks < 4 {
+                halve_update(new, ws);
+                backtracks += 1;
+                converged = false;
+                continue;
+            }
+            return Err(NewtonFailure::Breakdown);
+        }
+        if converged {
             return Ok((surfaces, iteration));
         }
         if iteration == MAX_NEWTON {
             break;
         }
-        // A worse (or NaN) residual halves the last update, a few times at most.
-        let improved = worst < previous;
-        if iteration > 0 && !improved && backtracks < 4 {
-            for i in 0..n {
-                ws.delta[i][0] *= 0.5;
-                ws.delta[i][1] *= 0.5;
-                new.moisture[i] -= ws.delta[i][0];
-                new.temperature[i] -= ws.delta[i][1];
-            }
+        // A clearly worse residual halves the last update, a few times at most.
+        if iteration > 0 && worst > 2.0 * previous && backtracks < 4 {
+            halve_update(new, ws);
             backtracks += 1;
+            ws.jacobian_valid = false;
             continue;
-        }
-        if !worst.is_finite() {
-            return Err(NewtonFailure::Breakdown);
         }
         previous = worst;
         backtracks = 0;
@@ -532,47 +834,88 @@ pub fn backward_euler(
             // Face i's derivatives with respect to its right cell (this one) and face i+1's with
             // respect to its left cell (this one).
             ws.diag[i] = [
-                storage[0] - dt * (areas[i] * left[0][2] - areas[i + 1] * right[0][0]),
-                storage[1] - dt * (areas[i] * left[0][3] - areas[i + 1] * right[0][1]),
-                storage[2] - dt * (areas[i] * left[1][2] - areas[i + 1] * right[1][0]),
-                storage[3] - dt * (areas[i] * left[1][3] - areas[i + 1] * right[1][1]),
+                storage[0] - c_dt * (areas[i] * left[0][2] - areas[i + 1] * right[0][0]),
+                storage[1] - c_dt * (areas[i] * left[0][3] - areas[i + 1] * right[0][1]),
+                storage[2] - c_dt * (areas[i] * left[1][2] - areas[i + 1] * right[1][0]),
+                storage[3] - c_dt * (areas[i] * left[1][3] - areas[i + 1] * right[1][1]),
             ];
             ws.lower[i] = [
-                -dt * areas[i] * left[0][0],
-                -dt * areas[i] * left[0][1],
-                -dt * areas[i] * left[1][0],
-                -dt * areas[i] * left[1][1],
+                -c_dt * areas[i] * left[0][0],
+                -c_dt * areas[i] * left[0][1],
+                -c_dt * areas[i] * left[1][0],
+                -c_dt * areas[i] * left[1][1],
             ];
             ws.upper[i] = [
-                dt * areas[i + 1] * right[0][2],
-                dt * areas[i + 1] * right[0][3],
-                dt * areas[i + 1] * right[1][2],
-                dt * areas[i + 1] * right[1][3],
-            ];
-        }
-        for i in 0..n {
-            let u = [new.moisture[i].abs(), new.temperature[i].abs() + 1.0];
-            let mut level = [0.0; 2];
-            for b in [&ws.lower[i], &ws.diag[i], &ws.upper[i]] {
-                level[0] += b[0].abs() * u[0] + b[1].abs() * u[1];
-                level[1] += b[2].abs() * u[0] + b[3].abs() * u[1];
-            }
-            ws.noise[i] = [
-                64.0 * f64::EPSILON * level[0],
-                64.0 * f64::EPSILON * level[1],
+                c_dt * areas[i + 1] * right[0][2],
+                c_dt * areas[i + 1] * right[0][3],
+                c_dt * areas[i + 1] * right[1][2],
+                c_dt * areas[i + 1] * right[1][3],
             ];
         }
         if !blocktri::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
             return Err(NewtonFailure::Breakdown);
         }
+        ws.linear_solves += 1;
+        let mut update: f64 = 0.0;
         for i in 0..n {
             ws.delta[i] = ws.rhs[i];
             new.moisture[i] += ws.rhs[i][0];
             new.temperature[i] += ws.rhs[i][1];
+            update = update
+                .max(ws.rhs[i][0].abs() / tol_x)
+                .max(ws.rhs[i][1].abs() / tol_t);
         }
-        ws.linear_solves += 1;
+        let rate = if iteration > 0 && last_update > 0.0 {
+            update / last_update
+        } else {
+            ws.rate.max(1e-3).powf(0.8)
+        };
+        if iteration > 0 {
+            ws.rate = rate;
+        }
+        last_update = update;
+        converged = settings.linear
+            || update <= NEWTON_FRACTION * 1e-2
+            || (rate < 1.0 && rate / (1.0 - rate) * update <= NEWTON_FRACTION);
+        if !converged && (rate > REFRESH_RATE || iteration >= 4) {
+            ws.jacobian_valid = false;
+        }
     }
+    ws.jacobian_valid = false;
     Err(NewtonFailure::NotConverged)
+}
+
+/// Undoes half of the last Newton update.
+fn halve_update(new: &mut State, ws: &mut CoupledWorkspace) {
+    for i in 0..new.moisture.len() {
+        ws.delta[i][0] *= 0.5;
+        ws.delta[i][1] *= 0.5;
+        new.moisture[i] -= ws.delta[i][0];
+        new.temperature[i] -= ws.delta[i][1];
+    }
+}
+
+/// Solves `v` (interleaved water, energy per cell) in place with the block matrix of the last
+/// Newton update: turns errors in stored water and energy into moisture and temperature errors.
+pub fn filter(ws: &mut CoupledWorkspace, v: &mut [f64]) -> bool {
+    for (i, r) in ws.rhs.iter_mut().enumerate() {
+        *r = [v[2 * i], v[2 * i + 1]];
+    }
+    let ok = blocktri::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch);
+    for (i, r) in ws.rhs.iter().enumerate() {
+        v[2 * i] = r[0];
+        v[2 * i + 1] = r[1];
+    }
+    ok
+}
+
+/// Stored water and energy of every cell (interleaved), per unit normalised area.
+pub fn conserved(problem: &Problem, thermal: &Thermal, state: &State, u: &mut [f64]) {
+    for i in 0..state.moisture.len() {
+        let (x, t) = (state.moisture[i], state.temperature[i]);
+        u[2 * i] = problem.dry_mass[i] * x;
+        u[2 * i + 1] = energy(problem, thermal, i, x, t);
+    }
 }
 
 /// Stored energy of the whole body, J per m2 of face A (relative to 0 C).

@@ -1,26 +1,17 @@
-//! Face fluxes and their derivatives, and one backward-Euler Newton solve.
+//! Face fluxes and their derivatives, and the Newton solve of one implicit stage.
 //!
 //! Face k lies between cell k-1 and cell k (face 0 is face A, face n is face B). The flux F_k
 //! is positive in the direction of increasing position (from face A towards face B), per unit
 //! normalised area. Each face reports F_k and its derivatives with respect to the cell on its
-//! left and on its right; the backward-Euler residual and its tridiagonal Jacobian are
-//! assembled from those.
+//! left and on its right; a stage's residual and its tridiagonal Jacobian are assembled from
+//! those.
 
 use super::problem::{FaceLaw, FaceSite, InnerFace, MaterialProps, Problem};
 use super::tridiag;
 use super::workspace::Workspace;
 
-/// Maximum Newton iterations per backward-Euler solve before the step is rejected.
+/// Maximum Newton iterations per stage solve before the step is rejected.
 pub const MAX_NEWTON: usize = 25;
-
-/// Newton converges when every cell's residual, divided by its dry mass, is below this times
-/// the run's moisture scale: far below the time-error tolerance, so mass balance is kept to
-/// round-off.
-pub const NEWTON_TOLERANCE: f64 = 1e-13;
-
-/// Where round-off keeps the residual above [`NEWTON_TOLERANCE`] (fine meshes, long steps),
-/// a residual below this that no longer falls tenfold per iteration counts as converged.
-pub const NEWTON_FLOOR: f64 = 1e-9;
 
 /// Conditions at the two exposed faces during one solve.
 #[derive(Debug, Clone, Copy)]
@@ -193,6 +184,33 @@ pub fn face_outflow(
     xc: f64,
     t_c: f64,
 ) -> (f64, f64, f64) {
+    let (j, dj, xs, _) = face_outflow_from(m, site, law, xc, t_c, f64::NAN);
+    (j, dj, xs)
+}
+
+/// [`face_outflow`] started from `guess` (NaN for none): returns (outflow, d outflow / d xc,
+/// surface moisture, the solved unknown to start the next call from).
+///
+/// - Fixed surface: closed form.
+/// - Content-based law k (X_s - X_eq): closed form with a constant diffusivity,
+///   X_s = (g D X_c + k X_eq) / (g D + k) with g = rho / half cell; otherwise Newton on X_s
+///   inside the bracket [X_eq, X_c].
+/// - Air-side law hm (aw c_sat - rho_v): the unknown is the surface water activity aw, so the
+///   isotherm is only evaluated forward (X(aw) and its slope, no inversion): Newton on
+///   conduction(X(aw)) = hm (aw c_sat - rho_v) inside [0, 1]. Where the cell holds free water and
+///   could feed more than the air takes at aw = 1, the surface is wet: the outflow is
+///   hm (c_sat - rho_v) and X_s >= the saturation moisture solves conduction(X_s) = that.
+///
+/// Each Newton iteration keeps a bracket and bisects when a step would leave it, so the warm
+/// start only speeds things up. Derivatives follow from the implicit-function theorem.
+pub fn face_outflow_from(
+    m: &MaterialProps,
+    site: &FaceSite,
+    law: FaceLaw,
+    xc: f64,
+    t_c: f64,
+    guess: f64,
+) -> (f64, f64, f64, f64) {
     let g = m.density / site.half_width;
     // Conduction over the half cell towards the surface, and its partial derivatives.
     let conduction = |xs: f64| {
@@ -207,14 +225,30 @@ pub fn face_outflow(
         )
     };
     match law {
-        FaceLaw::Sealed => (0.0, 0.0, xc),
+        FaceLaw::Sealed => (0.0, 0.0, xc, f64::NAN),
         FaceLaw::Fixed(xs) => {
             let (j, dj_dxc, _) = conduction(xs);
-            (j, dj_dxc, xs)
+            (j, dj_dxc, xs, xs)
         }
         FaceLaw::Linear { k, x_eq } => {
-            let external = |xs: f64| (k * (xs - x_eq), k);
-            surface_balance(conduction, external, xc, Some(x_eq))
+            if m.diffusivity.is_constant() {
+                let gd = g * m.diffusivity.at(xc, t_c);
+                let xs = (gd * xc + k * x_eq) / (gd + k);
+                return (k * (xs - x_eq), k * gd / (gd + k), xs, xs);
+            }
+            let (lo, hi) = if xc > x_eq { (x_eq, xc) } else { (xc, x_eq) };
+            let xs = newton_in_bracket(
+                |xs| {
+                    let (c, _, c_s) = conduction(xs);
+                    (c - k * (xs - x_eq), c_s - k)
+                },
+                lo,
+                hi,
+                guess,
+            );
+            let (_, c_c, c_s) = conduction(xs);
+            let dxs = -c_c / (c_s - k);
+            (k * (xs - x_eq), k * dxs, xs, xs)
         }
         FaceLaw::AirSide {
             hm,
@@ -222,19 +256,116 @@ pub fn face_outflow(
             rho_v_air,
             t_c: ts,
         } => {
-            let external = |xs: f64| {
-                let aw = activity(m, xs, ts);
-                let slope = m.isotherm.water_activity_slope(xs, ts).unwrap_or(0.0);
-                (hm * (aw * c_sat - rho_v_air), hm * c_sat * slope)
+            let iso = &m.isotherm;
+            if xc <= 0.0 || !xc.is_finite() || iso.moisture_and_slope(0.5, ts).is_none() {
+                return air_side_by_moisture(m, law, xc, ts, conduction);
+            }
+            let wet = hm * (c_sat - rho_v_air);
+            if let Some(sat) = iso.saturation_moisture(ts).filter(|x| x.is_finite())
+                && xc > sat
+                && conduction(sat).0 >= wet
+            {
+                let xs = newton_in_bracket(
+                    |xs| {
+                        let (c, _, c_s) = conduction(xs);
+                        (c - wet, c_s)
+                    },
+                    sat,
+                    xc,
+                    guess,
+                );
+                return (wet, 0.0, xs, xs);
+            }
+            let balance = |aw: f64| match iso.moisture_and_slope(aw, ts) {
+                Some((xs, slope)) => {
+                    let (c, _, c_s) = conduction(xs);
+                    (c - hm * (aw * c_sat - rho_v_air), c_s * slope - hm * c_sat)
+                }
+                None => (f64::NAN, f64::NAN),
             };
-            let rh = if c_sat > 0.0 { rho_v_air / c_sat } else { 0.0 };
-            let x_eq = (rh < 1.0)
-                .then(|| m.isotherm.equilibrium_moisture(rh, ts))
-                .flatten()
-                .filter(|x| x.is_finite());
-            surface_balance(conduction, external, xc, x_eq)
+            let aw = newton_in_bracket(balance, 0.0, 1.0, guess);
+            let Some((xs, slope)) = iso.moisture_and_slope(aw, ts) else {
+                return air_side_by_moisture(m, law, xc, ts, conduction);
+            };
+            let (_, c_c, c_s) = conduction(xs);
+            let denom = c_s * slope - hm * c_sat;
+            let daw = if denom != 0.0 && denom.is_finite() {
+                -c_c / denom
+            } else {
+                0.0
+            };
+            (hm * (aw * c_sat - rho_v_air), hm * c_sat * daw, xs, aw)
         }
     }
+}
+
+/// The air-side face solved for the surface moisture with the isotherm inverted (the general
+/// fallback where the forward form cannot be used, such as a cell without water).
+fn air_side_by_moisture(
+    m: &MaterialProps,
+    law: FaceLaw,
+    xc: f64,
+    ts: f64,
+    conduction: impl Fn(f64) -> (f64, f64, f64),
+) -> (f64, f64, f64, f64) {
+    let FaceLaw::AirSide {
+        hm,
+        c_sat,
+        rho_v_air,
+        ..
+    } = law
+    else {
+        return (0.0, 0.0, xc, f64::NAN);
+    };
+    let external = |xs: f64| {
+        let aw = activity(m, xs, ts);
+        let slope = m.isotherm.water_activity_slope(xs, ts).unwrap_or(0.0);
+        (hm * (aw * c_sat - rho_v_air), hm * c_sat * slope)
+    };
+    let rh = if c_sat > 0.0 { rho_v_air / c_sat } else { 0.0 };
+    let x_eq = (rh < 1.0)
+        .then(|| m.isotherm.equilibrium_moisture(rh, ts))
+        .flatten()
+        .filter(|x| x.is_finite());
+    let (j, dj, xs) = surface_balance(conduction, external, xc, x_eq);
+    (j, dj, xs, f64::NAN)
+}
+
+/// Root of a decreasing `f` (value, derivative) in [lo, hi], where f(lo) >= 0 >= f(hi), by
+/// Newton's method from `guess` (the middle when it is outside the bracket or NaN), keeping the
+/// bracket and bisecting whenever a step would leave it or the derivative is unusable.
+fn newton_in_bracket(f: impl Fn(f64) -> (f64, f64), mut lo: f64, mut hi: f64, guess: f64) -> f64 {
+    if hi <= lo || hi.is_nan() || lo.is_nan() {
+        return lo;
+    }
+    let mut x = if guess > lo && guess < hi {
+        guess
+    } else {
+        0.5 * (lo + hi)
+    };
+    for _ in 0..100 {
+        let (v, d) = f(x);
+        if v == 0.0 {
+            return x;
+        }
+        if v > 0.0 {
+            lo = x;
+        } else if v < 0.0 {
+            hi = x;
+        }
+        let mut next = x - v / d;
+        let usable = d < 0.0 && next.is_finite() && next > lo && next < hi;
+        if !usable {
+            next = 0.5 * (lo + hi);
+        }
+        let step = (next - x).abs();
+        x = next;
+        let size = 1e-14 * (1.0 + x.abs());
+        if step <= size || hi - lo <= size {
+            return x;
+        }
+    }
+    x
 }
 
 /// Solves conduction(xs) = external(xs) for the surface moisture xs and returns (outflow,
@@ -290,13 +421,35 @@ pub fn evaluate_faces(
     x: &[f64],
     ws: &mut Workspace,
 ) -> Surfaces {
+    evaluate_faces_with(problem, laws, t_c, x, ws, true)
+}
+
+/// Evaluates every face flux at state `x` into the workspace with the derivatives that come with
+/// it at no extra cost (inside one material, analytic; exposed faces, from the solved surface),
+/// and the derivatives of material boundaries (central differences, four more interface solves
+/// each) only when `derivatives` is set; otherwise those stored are kept, for a reused Jacobian.
+/// Returns the surface figures. Fresh exposed-face derivatives keep the Newton update's water
+/// balance exact to first order whatever interior derivatives it uses: those cancel between
+/// neighbouring cells.
+pub fn evaluate_faces_with(
+    problem: &Problem,
+    laws: &FaceLaws,
+    t_c: f64,
+    x: &[f64],
+    ws: &mut Workspace,
+    derivatives: bool,
+) -> Surfaces {
     let n = x.len();
     for (k, face) in problem.inner.iter().enumerate() {
         let k = k + 1;
         let (xl, xr) = (x[k - 1], x[k]);
-        let [f, dl, dr] = match *face {
+        match *face {
             InnerFace::Same { material, distance } => {
-                same_material(&problem.materials[material], distance, xl, xr, t_c)
+                let [f, dl, dr] =
+                    same_material(&problem.materials[material], distance, xl, xr, t_c);
+                ws.flux[k] = f;
+                ws.d_left[k] = dl;
+                ws.d_right[k] = dr;
             }
             InnerFace::Interface {
                 left,
@@ -307,18 +460,15 @@ pub fn evaluate_faces(
                 let (ml, mr) = (&problem.materials[left], &problem.materials[right]);
                 let flux =
                     |a: f64, b: f64| interface_flux(ml, mr, left_half, right_half, a, b, t_c);
-                let el = 1e-7 * (xl.abs() + problem.moisture_scale);
-                let er = 1e-7 * (xr.abs() + problem.moisture_scale);
-                [
-                    flux(xl, xr),
-                    (flux(xl + el, xr) - flux(xl - el, xr)) / (2.0 * el),
-                    (flux(xl, xr + er) - flux(xl, xr - er)) / (2.0 * er),
-                ]
+                ws.flux[k] = flux(xl, xr);
+                if derivatives {
+                    let el = 1e-7 * (xl.abs() + problem.moisture_scale);
+                    let er = 1e-7 * (xr.abs() + problem.moisture_scale);
+                    ws.d_left[k] = (flux(xl + el, xr) - flux(xl - el, xr)) / (2.0 * el);
+                    ws.d_right[k] = (flux(xl, xr + er) - flux(xl, xr - er)) / (2.0 * er);
+                }
             }
-        };
-        ws.flux[k] = f;
-        ws.d_left[k] = dl;
-        ws.d_right[k] = dr;
+        }
     }
     let mut s = Surfaces {
         x_a: x[0],
@@ -328,14 +478,16 @@ pub fn evaluate_faces(
         ..Surfaces::default()
     };
     ws.flux[0] = 0.0;
+    ws.flux[n] = 0.0;
     ws.d_left[0] = 0.0;
     ws.d_right[0] = 0.0;
-    ws.flux[n] = 0.0;
     ws.d_left[n] = 0.0;
     ws.d_right[n] = 0.0;
     if let Some(site) = &problem.face_a {
         let m = &problem.materials[site.material];
-        let (j, dj, xs) = face_outflow(m, site, laws.a, x[site.cell], t_c);
+        let (j, dj, xs, u) =
+            face_outflow_from(m, site, laws.a, x[site.cell], t_c, ws.face_guess[0]);
+        ws.face_guess[0] = u;
         // Outflow at face A runs towards -s.
         ws.flux[0] = -j;
         ws.d_right[0] = -dj;
@@ -344,7 +496,9 @@ pub fn evaluate_faces(
     }
     if let Some(site) = &problem.face_b {
         let m = &problem.materials[site.material];
-        let (j, dj, xs) = face_outflow(m, site, laws.b, x[site.cell], t_c);
+        let (j, dj, xs, u) =
+            face_outflow_from(m, site, laws.b, x[site.cell], t_c, ws.face_guess[1]);
+        ws.face_guess[1] = u;
         ws.flux[n] = j;
         ws.d_left[n] = dj;
         s.out_b = j;
@@ -353,7 +507,40 @@ pub fn evaluate_faces(
     s
 }
 
-/// Why a backward-Euler solve failed.
+/// The surface figures of state `x` alone (only the exposed faces are solved; the interior
+/// fluxes in the workspace are left as they are).
+pub fn exposed_surfaces(
+    problem: &Problem,
+    laws: &FaceLaws,
+    t_c: f64,
+    x: &[f64],
+    ws: &mut Workspace,
+) -> Surfaces {
+    let n = x.len();
+    let mut s = Surfaces {
+        x_a: x[0],
+        x_b: x[n - 1],
+        t_a: t_c,
+        t_b: t_c,
+        ..Surfaces::default()
+    };
+    for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
+        if let Some(site) = site {
+            let m = &problem.materials[site.material];
+            let (j, _, xs, u) =
+                face_outflow_from(m, site, law, x[site.cell], t_c, ws.face_guess[side]);
+            ws.face_guess[side] = u;
+            if side == 0 {
+                (s.out_a, s.x_a) = (j, xs);
+            } else {
+                (s.out_b, s.x_b) = (j, xs);
+            }
+        }
+    }
+    s
+}
+
+/// Why a stage solve failed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum NewtonFailure {
     /// No convergence within [`MAX_NEWTON`] iterations.
@@ -362,72 +549,152 @@ pub enum NewtonFailure {
     Breakdown,
 }
 
-/// One backward-Euler step from `old` over `dt`, solved by Newton's method into `new`.
-/// Returns the surfaces at the converged state and the Newton iteration count.
+/// How a stage's Newton iteration stops (see [`solve_stage`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct NewtonSettings {
+    /// Largest remaining error of the Newton iterate accepted, per unknown kind: moisture (dry
+    /// fraction) and temperature (K). A fraction [`NEWTON_FRACTION`] of the step's error
+    /// tolerance, so the iteration error stays well below the time error the step control
+    /// allows.
+    pub tol: [f64; 2],
+    /// The stage equations are linear in the unknowns (constant diffusivity, one material,
+    /// fixed or content-based faces, isothermal): one Newton update solves them exactly.
+    pub linear: bool,
+}
+
+/// The Newton iterate is accepted when its estimated remaining error is below this fraction of
+/// the time-error tolerance (in the same scaled norm). 0.03 sits in the usual 0.01-0.1 range for
+/// implicit Runge-Kutta codes: far enough below 1 that the iteration error does not disturb the
+/// error estimate, not so far that iterations are wasted.
+pub const NEWTON_FRACTION: f64 = 0.03;
+
+/// Above this contraction rate a reused (modified-Newton) Jacobian is refreshed.
+const REFRESH_RATE: f64 = 0.3;
+
+/// Solves one implicit stage `m_i x_i - c_dt * inflow_i(x) = b_i` for every cell (b in kg of
+/// water per unit normalised area) by Newton's method, starting from the guess in `x` (`fallback`
+/// when the guess gives non-finite values). The face derivatives are reused from an earlier
+/// evaluation while the iteration contracts well (modified Newton) and refreshed when it does
+/// not. The iteration stops when the estimated error of the iterate, `rate / (1 - rate)` times
+/// the last update, is below `settings.tol` (linear stages stop after one update), and the
+/// faces are then evaluated at the final iterate: so `ws.inflow` and the returned surfaces belong
+/// to the state returned, and water leaving through the faces matches the change of water held
+/// up to the faces' own nonlinearity over the last (tiny) update.
 #[allow(clippy::too_many_arguments)]
-pub fn backward_euler(
+pub fn solve_stage(
     problem: &Problem,
     laws: &FaceLaws,
     t_c: f64,
-    dt: f64,
-    old: &[f64],
-    new: &mut [f64],
+    c_dt: f64,
+    b: &[f64],
+    x: &mut [f64],
+    fallback: &[f64],
     ws: &mut Workspace,
+    settings: &NewtonSettings,
 ) -> Result<(Surfaces, usize), NewtonFailure> {
-    let n = old.len();
-    new.copy_from_slice(old);
+    let n = x.len();
     let areas = &problem.mesh.areas;
     let mass = &problem.dry_mass;
-    let limit = NEWTON_TOLERANCE * problem.moisture_scale;
-    let floor = NEWTON_FLOOR * problem.moisture_scale;
+    let tol = settings.tol[0];
     let mut previous = f64::INFINITY;
     let mut backtracks = 0;
+    let mut restarted = false;
+    let mut converged = false;
+    let mut last_update = f64::INFINITY;
     for iteration in 0..=MAX_NEWTON {
-        let surfaces = evaluate_faces(problem, laws, t_c, new, ws);
+        let fresh = !ws.jacobian_valid;
+        let surfaces = evaluate_faces_with(problem, laws, t_c, x, ws, fresh);
+        if fresh {
+            ws.jacobian_valid = true;
+            ws.jacobian_evaluations += 1;
+        }
         let mut worst: f64 = 0.0;
         for i in 0..n {
             let inflow = areas[i] * ws.flux[i] - areas[i + 1] * ws.flux[i + 1];
-            let r = mass[i] * (new[i] - old[i]) - dt * inflow;
+            ws.inflow[i] = inflow;
+            let r = mass[i] * x[i] - b[i] - c_dt * inflow;
             worst = worst.max((r / mass[i]).abs());
             ws.rhs[i] = -r;
         }
-        let converged = worst <= limit || (worst <= floor && worst > 0.1 * previous);
-        if converged && worst.is_finite() {
+        if !worst.is_finite() {
+            if iteration == 0 && !restarted {
+                // The predicted guess left the laws' domain: start from the fallback.
+                x.copy_from_slice(fallback);
+                restarted = true;
+                continue;
+            }
+            if iteration > 0 && backtracks < 4 {
+                for (v, d) in x.iter_mut().zip(ws.delta.iter_mut()) {
+                    *d *= 0.5;
+                    *v -= *d;
+                }
+                backtracks += 1;
+                converged = false;
+                continue;
+            }
+            return Err(NewtonFailure::Breakdown);
+        }
+        if converged {
             return Ok((surfaces, iteration));
         }
         if iteration == MAX_NEWTON {
             break;
         }
-        // An update that made things worse (or not finite) is halved, a few times at most:
+        // An update that made the residual clearly worse is halved, a few times at most:
         // strongly nonlinear isotherms can overshoot a full Newton step.
-        let improved = worst < previous;
-        if iteration > 0 && !improved && backtracks < 4 {
-            for (x, d) in new.iter_mut().zip(ws.delta.iter_mut()) {
+        if iteration > 0 && worst > 2.0 * previous && backtracks < 4 {
+            for (v, d) in x.iter_mut().zip(ws.delta.iter_mut()) {
                 *d *= 0.5;
-                *x -= *d;
+                *v -= *d;
             }
             backtracks += 1;
+            ws.jacobian_valid = false;
             continue;
-        }
-        if !worst.is_finite() {
-            return Err(NewtonFailure::Breakdown);
         }
         previous = worst;
         backtracks = 0;
         for i in 0..n {
-            ws.lower[i] = -dt * areas[i] * ws.d_left[i];
+            ws.lower[i] = -c_dt * areas[i] * ws.d_left[i];
             ws.diag[i] =
-                mass[i] - dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
-            ws.upper[i] = dt * areas[i + 1] * ws.d_right[i + 1];
+                mass[i] - c_dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
+            ws.upper[i] = c_dt * areas[i + 1] * ws.d_right[i + 1];
         }
         if !tridiag::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
             return Err(NewtonFailure::Breakdown);
         }
-        for ((x, d), r) in new.iter_mut().zip(ws.delta.iter_mut()).zip(&ws.rhs) {
-            *d = *r;
-            *x += r;
-        }
         ws.linear_solves += 1;
+        let mut update: f64 = 0.0;
+        for ((v, d), r) in x.iter_mut().zip(ws.delta.iter_mut()).zip(&ws.rhs) {
+            *d = *r;
+            *v += r;
+            update = update.max(r.abs());
+        }
+        let update = update / tol;
+        // The contraction rate: measured from the second update on, else the last one seen.
+        let rate = if iteration > 0 && last_update > 0.0 {
+            update / last_update
+        } else {
+            // Before a rate is measured, the last one seen, raised a little for safety.
+            ws.rate.max(1e-3).powf(0.8)
+        };
+        if iteration > 0 {
+            ws.rate = rate;
+        }
+        last_update = update;
+        converged = settings.linear
+            || update <= NEWTON_FRACTION * 1e-2
+            || (rate < 1.0 && rate / (1.0 - rate) * update <= NEWTON_FRACTION);
+        if !converged && (rate > REFRESH_RATE || iteration >= 4) {
+            ws.jacobian_valid = false;
+        }
     }
+    ws.jacobian_valid = false;
     Err(NewtonFailure::NotConverged)
+}
+
+/// Solves `v` in place with the matrix of the last Newton update (`m - c_dt J`): turns an error
+/// in water held (kg per unit normalised area per cell) into a moisture error, damping the stiff
+/// components as the implicit stages do.
+pub fn filter(ws: &mut Workspace, v: &mut [f64]) -> bool {
+    tridiag::solve_in_place(&ws.lower, &ws.diag, &ws.upper, v, &mut ws.scratch)
 }

@@ -1,6 +1,7 @@
-//! The isothermal moisture solver: a graded finite-volume mesh, Newton on a tridiagonal system
-//! for each backward-Euler step, extrapolation and step-doubling error control, and a run loop
-//! that follows the schedule. Knows nothing of files.
+//! The moisture (and coupled heat) solver: a finite-volume mesh graded by the surface Biot number,
+//! TR-BDF2 time steps (two implicit stages, each a Newton solve on a tridiagonal or 2x2
+//! block-tridiagonal system) with an embedded error estimate, and a run loop that follows the
+//! schedule. Knows nothing of files.
 //!
 //! Layers of the API: [`Problem`] (immutable, built from a case), [`Stepper`] (owns the state,
 //! the step control and a [`Workspace`]; the caller drives `step()`), and [`run`] (the loop that
@@ -11,6 +12,7 @@ pub mod coupled;
 mod driver;
 pub mod flux;
 pub mod mesh;
+pub mod method;
 pub mod model;
 pub mod observe;
 pub mod problem;
@@ -24,7 +26,7 @@ pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
 pub use problem::Problem;
 pub use schedule::{StepEnd, StepRecord};
 pub use state::State;
-pub use stepper::{Controller, Stats, Stepper, StopReason};
+pub use stepper::{Controller, Exchanged, Stats, Stepper, StopReason};
 pub use workspace::Workspace;
 
 use crate::case::Case;

@@ -202,15 +202,36 @@ impl Problem {
         // A single layer exposed on both faces is two one-face halves back to back: each half
         // gets the cells and grading a one-face layer would, so both faces are resolved alike.
         let mirrored = n_layers == 1 && case.exposed == crate::case::Exposed::Both;
+        // Exposed faces are graded by their Biot number, material boundaries by the fixed ratio.
+        let face_ratio = |layer: usize| {
+            let length = case.layers[layer].thickness * if mirrored { 0.5 } else { 1.0 };
+            super::mesh::grading_for_biot(surface_biot(case, layer, length))
+        };
         let refine: Vec<Refine> = (0..n_layers)
-            .map(|i| Refine {
-                start: if i == 0 { case.exposed.a() } else { true },
-                end: if i + 1 == n_layers {
+            .map(|i| {
+                let start = if i == 0 { case.exposed.a() } else { true };
+                let end = if i + 1 == n_layers {
                     case.exposed.b()
                 } else {
                     true
-                },
-                full_halves: mirrored,
+                };
+                let start_ratio = if i == 0 && start {
+                    face_ratio(i)
+                } else {
+                    super::mesh::GRADING_RATIO
+                };
+                let end_ratio = if i + 1 == n_layers && end {
+                    face_ratio(i)
+                } else {
+                    super::mesh::GRADING_RATIO
+                };
+                Refine {
+                    start,
+                    end,
+                    full_halves: mirrored,
+                    start_ratio,
+                    end_ratio,
+                }
             })
             .collect();
         let cells = vec![case.cells_per_layer * if mirrored { 2 } else { 1 }; n_layers];
@@ -488,6 +509,73 @@ impl Problem {
         }
         Some(held / self.total_dry_mass())
     }
+}
+
+/// The largest surface Biot number an exposed face of `layer` meets over the schedule: external
+/// over internal conductance, k_ext length / (rho_s D), with D the smallest over the layer's
+/// initial and equilibrium moistures and k_ext the content-based coefficient beta rho_s, or for
+/// an air-side law its linearisation hm c_sat daw/dX (the steepest over the drying range);
+/// infinite for a fixed surface. Coupled runs also count the heat Biot number h length / k.
+fn surface_biot(case: &Case, layer: usize, length: f64) -> f64 {
+    let l = &case.layers[layer];
+    let Some(m) = case.materials.get(l.material) else {
+        return f64::INFINITY;
+    };
+    let coupled = case.coupling == crate::case::Coupling::HeatAndMoisture;
+    let mut biot: f64 = 0.0;
+    for step in &case.schedule {
+        let t = step.dry_bulb_c;
+        let rh = step.relative_humidity();
+        let x0 = l.initial_moisture;
+        let x_eq = step
+            .equilibrium_moisture
+            .or_else(|| rh.and_then(|rh| m.isotherm.equilibrium_moisture(rh, t)))
+            .filter(|x| x.is_finite());
+        let d = [Some(x0), x_eq]
+            .into_iter()
+            .flatten()
+            .map(|x| m.diffusivity.at(x, t))
+            .fold(f64::INFINITY, f64::min);
+        let rho = m.dry_density;
+        let props = physics::transfer::air_properties(t, physics::STANDARD_PRESSURE_PA);
+        let air_side = |hm: f64| {
+            let sat = m.isotherm.saturation_moisture(t).unwrap_or(f64::INFINITY);
+            let lo = x_eq.unwrap_or(0.0).max(0.0);
+            let hi = x0.min(sat).max(lo);
+            let slope = [lo, 0.5 * (lo + hi), hi]
+                .into_iter()
+                .filter_map(|x| m.isotherm.water_activity_slope(x, t))
+                .fold(0.0, f64::max);
+            hm * saturated_vapour_density(t) * slope
+        };
+        let (k_ext, hm) = match step.exchange {
+            Exchange::Unspecified => (0.0, None),
+            Exchange::FixedSurface(_) => (f64::INFINITY, None),
+            Exchange::SurfaceCoefficient(beta) => (beta * rho, None),
+            Exchange::AirSide(hm) => (air_side(hm), Some(hm)),
+            Exchange::AirVelocity(v) => {
+                let hm = physics::transfer::flat_plate_mass_coef(v, case.flow_length, &props);
+                (air_side(hm), Some(hm))
+            }
+        };
+        if d > 0.0 && d.is_finite() {
+            biot = biot.max(k_ext * length / (rho * d));
+        }
+        if coupled && let Some(k) = m.conductivity {
+            let h = step.heat_coef.or(match step.exchange {
+                Exchange::AirVelocity(v) => Some(physics::transfer::flat_plate_heat_coef(
+                    v,
+                    case.flow_length,
+                    &props,
+                )),
+                _ => hm.map(|hm| physics::transfer::heat_coef_from_mass(hm, &props)),
+            });
+            if let Some(h) = h.filter(|h| h.is_finite()) {
+                biot = biot.max(h * length / k);
+            }
+        }
+    }
+    if biot.is_nan() { f64::INFINITY } else { biot }
 }
 
 /// Saturated water-vapour density at `t_c`, kg/m3 (ideal gas).

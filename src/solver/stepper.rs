@@ -1,20 +1,18 @@
-//! The time stepper: extrapolated backward Euler with step-doubling error control, exact
-//! landing on stop times, and mean-moisture triggers.
+//! The time stepper: a [`Method`] (TR-BDF2) with error-per-step control, exact landing on stop
+//! times, mean-moisture triggers and dense output inside the last step.
 //!
-//! Each step takes one backward-Euler step of size dt (`full`) and two of size dt/2
-//! (`two_halves`). Their difference estimates the local error of backward Euler; the accepted
-//! state is the Richardson extrapolation 2 * two_halves - full, which is second-order accurate
-//! and, like backward Euler, L-stable (its stability function 2/(1 - z/2)^2 - 1/(1 - z) tends
-//! to 0 as z -> -inf), so sharp starts such as a suddenly fixed surface do not ring. Every
-//! candidate is a linear combination of mass-conserving states, so water is conserved to the
-//! Newton tolerance.
+//! The stepper owns the state, the step size and the schedule step in force; the method solves
+//! the implicit stages through the model, estimates the local error and integrates what crossed
+//! the faces with its own quadrature, so water (and in coupled runs energy) is conserved up to
+//! the Newton iteration's last update.
 
 use std::fmt;
 
 use super::SolveError;
 use super::coupled::{HeatFace, HeatFaces};
 use super::flux::{self, FaceLaws, Surfaces};
-use super::model::{self, Conditions, Model, Rates};
+use super::method::{ConditionsAt, Method, TrBdf2};
+use super::model::{self, Conditions, Model};
 use super::problem::{Air, FaceLaw, Problem};
 use super::state::State;
 
@@ -33,25 +31,6 @@ pub struct Exchanged {
 }
 
 impl Exchanged {
-    /// Rates held for `dt` seconds.
-    fn over(rates: Rates, dt: f64) -> Exchanged {
-        Exchanged {
-            water: rates.water * dt,
-            convective: rates.convective * dt,
-            latent: rates.latent * dt,
-            energy_in: rates.energy_in * dt,
-        }
-    }
-
-    fn scaled(self, f: f64) -> Exchanged {
-        Exchanged {
-            water: f * self.water,
-            convective: f * self.convective,
-            latent: f * self.latent,
-            energy_in: f * self.energy_in,
-        }
-    }
-
     fn plus(self, o: Exchanged) -> Exchanged {
         Exchanged {
             water: self.water + o.water,
@@ -62,14 +41,21 @@ impl Exchanged {
     }
 }
 
-/// Step-size control from the step-doubling error estimate.
+/// Step-size control from the method's local error estimate.
 ///
-/// With `err` = max over cells of |two_halves - full| / (tolerance * moisture scale), a step
-/// is accepted when `err <= 1`. The next step is `dt * clamp(safety * err^(-1/2), min_factor,
-/// max_factor)`: the exponent is 1/2 because the local error of backward Euler grows as dt^2.
-/// A factor between 1 and `dead_zone` keeps dt unchanged, which avoids needless changes.
-/// Defaults: safety 0.9 (the usual margin so that the next step is not rejected), factors 0.2
-/// and 4 (fast growth from the tiny first step, a firm cut on rejection), dead zone 1.2.
+/// With `err` the method's scaled error (the dry-mass weighted root mean square over cells of the
+/// estimated local error against tolerance x moisture scale, and against tolerance x temperature
+/// scale in coupled runs), a step is accepted when `err <= 1`. The next step is
+///
+///   dt_new = dt * clamp(safety * err^(-exponent), min_factor, max_factor)
+///
+/// with exponent 1 / (p + 1) = 1/3 for TR-BDF2, whose error estimate is the local error of a
+/// second-order method (p = 2, error ~ dt^3): the step that would just meet the tolerance.
+/// A factor between 1 and `dead_zone` keeps dt as it is (no churn for a gain of a few per cent).
+/// Defaults and why: safety 0.9 (the usual margin, so the next step is rarely rejected), factors
+/// 0.2 and 5 (a firm cut after a rejection; fast growth from the tiny first step, which is
+/// chosen small against the smallest cell's diffusion time and so is far below what the
+/// tolerance allows), dead zone 1.2. After a rejected step the factor is at most 1.
 #[derive(Debug, Clone, Copy)]
 pub struct Controller {
     /// Safety factor on the optimal step.
@@ -80,6 +66,8 @@ pub struct Controller {
     pub max_factor: f64,
     /// Factors in [1, dead_zone] leave dt as it is.
     pub dead_zone: f64,
+    /// Exponent of the error in the step-size law, 1 / (order of the local error).
+    pub exponent: f64,
 }
 
 impl Default for Controller {
@@ -87,8 +75,9 @@ impl Default for Controller {
         Controller {
             safety: 0.9,
             min_factor: 0.2,
-            max_factor: 4.0,
+            max_factor: 5.0,
             dead_zone: 1.2,
+            exponent: 1.0 / 3.0,
         }
     }
 }
@@ -97,11 +86,14 @@ impl Controller {
     /// The next step size after a step of `dt` with scaled error `err`.
     pub fn next(&self, dt: f64, err: f64) -> f64 {
         let raw = if err > 0.0 {
-            self.safety / err.sqrt()
+            self.safety * err.powf(-self.exponent)
         } else {
             self.max_factor
         };
-        let factor = raw.clamp(self.min_factor, self.max_factor);
+        let mut factor = raw.clamp(self.min_factor, self.max_factor);
+        if err > 1.0 {
+            factor = factor.min(1.0);
+        }
         if (1.0..=self.dead_zone).contains(&factor) {
             dt
         } else {
@@ -119,12 +111,17 @@ pub struct Stats {
     pub rejected: u64,
     /// Steps rejected because Newton failed.
     pub newton_failures: u64,
-    /// Newton iterations over all backward-Euler solves.
+    /// Newton iterations over all implicit stage solves.
     pub newton_iterations: u64,
     /// Tridiagonal solves.
     pub linear_solves: u64,
     /// Extra attempts spent landing on a moisture trigger.
     pub trigger_refinements: u64,
+    /// Evaluations of the Jacobian parts that cost extra face solves (the finite differences at
+    /// material boundaries), counted once per fresh evaluation; fewer than the linear solves while
+    /// they are reused. Derivatives inside a material and at exposed faces come with every flux
+    /// evaluation and are not counted.
+    pub jacobian_evaluations: u64,
 }
 
 impl fmt::Display for Stats {
@@ -132,12 +129,13 @@ impl fmt::Display for Stats {
         write!(
             f,
             "{} steps accepted, {} rejected (error), {} rejected (Newton), {} Newton iterations, \
-             {} linear solves, {} trigger refinements",
+             {} linear solves, {} Jacobians, {} trigger refinements",
             self.accepted,
             self.rejected,
             self.newton_failures,
             self.newton_iterations,
             self.linear_solves,
+            self.jacobian_evaluations,
             self.trigger_refinements
         )
     }
@@ -168,13 +166,72 @@ pub const MAX_ATTEMPTS: u64 = 2_000_000;
 /// accepted step, instead of bouncing between a cut of 4 and a growth of 4.
 const NEWTON_CAP_GROWTH: f64 = 1.5;
 
-/// Trial states of one step.
-#[derive(Debug, Clone)]
-struct Trial {
-    full: State,
-    half: State,
-    two_halves: State,
-    candidate: State,
+/// The face conditions of the schedule step in force, at any time.
+#[derive(Clone, Copy)]
+struct Scheduled<'p> {
+    problem: &'p Problem,
+    step_index: usize,
+    step_start: f64,
+}
+
+impl Scheduled<'_> {
+    fn air_at(&self, t: f64) -> Air {
+        match self.problem.steps.get(self.step_index) {
+            Some(step) => step.air_at(t - self.step_start),
+            None => Air {
+                dry_bulb_c: 20.0,
+                rh: None,
+            },
+        }
+    }
+
+    fn laws_at(&self, t: f64) -> (FaceLaws, f64) {
+        let air = self.air_at(t);
+        let p = self.problem;
+        let law =
+            |site: Option<super::problem::FaceSite>| match (site, p.steps.get(self.step_index)) {
+                (Some(site), Some(step)) => p.face_law(step, air, site.material),
+                _ => FaceLaw::Sealed,
+            };
+        (
+            FaceLaws {
+                a: law(p.face_a),
+                b: law(p.face_b),
+            },
+            air.dry_bulb_c,
+        )
+    }
+
+    /// The coupled faces' conditions for the water laws `laws` at time `t`.
+    fn heat_faces(&self, laws: &FaceLaws, t: f64) -> HeatFaces {
+        let air = self.air_at(t);
+        let h = self
+            .problem
+            .steps
+            .get(self.step_index)
+            .and_then(|step| self.problem.heat_coef(step, air))
+            .unwrap_or(0.0);
+        let face = |law: FaceLaw| HeatFace {
+            law,
+            h,
+            t_air: air.dry_bulb_c,
+        };
+        HeatFaces {
+            a: face(laws.a),
+            b: face(laws.b),
+        }
+    }
+}
+
+impl ConditionsAt for Scheduled<'_> {
+    fn at(&self, t: f64) -> Conditions {
+        let (laws, t_air) = self.laws_at(t);
+        Conditions {
+            laws,
+            t_air,
+            heat: self.heat_faces(&laws, t),
+        }
+    }
 }
 
 /// Advances a [`Problem`] in time. The caller drives it with [`Stepper::step`].
@@ -188,7 +245,7 @@ pub struct Stepper<'p> {
     step_index: usize,
     step_start: f64,
     model: Box<dyn Model + 'p>,
-    trial: Trial,
+    method: Box<dyn Method>,
     controller: Controller,
     stats: Stats,
     exchanged: Exchanged,
@@ -218,12 +275,10 @@ impl<'p> Stepper<'p> {
             step_index: 0,
             step_start: 0.0,
             model: model::for_problem(problem),
-            trial: Trial {
-                full: State::zeros(n, coupled),
-                half: State::zeros(n, coupled),
-                two_halves: State::zeros(n, coupled),
-                candidate: State::zeros(n, coupled),
-            },
+            method: Box::new(TrBdf2::new(
+                problem,
+                if problem.thermal.is_some() { 2 } else { 1 },
+            )),
             controller: Controller::default(),
             stats: Stats::default(),
             exchanged: Exchanged::default(),
@@ -254,6 +309,7 @@ impl<'p> Stepper<'p> {
     pub fn stats(&self) -> Stats {
         Stats {
             linear_solves: self.model.linear_solves(),
+            jacobian_evaluations: self.model.jacobian_evaluations(),
             ..self.stats
         }
     }
@@ -278,6 +334,8 @@ impl<'p> Stepper<'p> {
     pub fn set_schedule_step(&mut self, index: usize, start: f64) {
         self.step_index = index.min(self.problem.steps.len().saturating_sub(1));
         self.step_start = start;
+        self.method.restart();
+        self.model.invalidate_jacobian();
         self.restart_step_size();
     }
 
@@ -293,12 +351,14 @@ impl<'p> Stepper<'p> {
 
     /// Air in force at time `t`.
     pub fn air_at(&self, t: f64) -> Air {
-        match self.problem.steps.get(self.step_index) {
-            Some(step) => step.air_at(t - self.step_start),
-            None => Air {
-                dry_bulb_c: 20.0,
-                rh: None,
-            },
+        self.scheduled().air_at(t)
+    }
+
+    fn scheduled(&self) -> Scheduled<'p> {
+        Scheduled {
+            problem: self.problem,
+            step_index: self.step_index,
+            step_start: self.step_start,
         }
     }
 
@@ -319,19 +379,13 @@ impl<'p> Stepper<'p> {
 
     /// What the exposed faces see at time `t` in the schedule step in force.
     fn conditions_at(&self, t: f64) -> Conditions {
-        let (laws, t_air) = self.laws_at(t);
-        Conditions {
-            laws,
-            t_air,
-            heat: self.heat_faces(&laws, t),
-        }
+        self.scheduled().at(t)
     }
 
     /// The state at time `t` within the last accepted step, written into `out` (dense output,
-    /// so that output times never force a step). The quadratic through the step's start, its
-    /// half-step solution and its end: the half step carries the same backward-Euler error the
-    /// step control bounds, so the interpolant is as accurate as the tolerance asks. Outside the
-    /// last step, the nearest end.
+    /// so that output times never force a step): the method's interpolant (for TR-BDF2 the
+    /// quadratic through the step's start, its trapezoidal stage and its end). Outside the last
+    /// step, the nearest end.
     pub fn interpolate_into(&self, t: f64, out: &mut State) {
         let dt = self.t - self.prev_t;
         if dt <= 0.0 || dt.is_nan() || t >= self.t {
@@ -342,67 +396,8 @@ impl<'p> Stepper<'p> {
             out.clone_from(&self.prev);
             return;
         }
-        let s = (t - self.prev_t) / dt;
-        let (l0, l1, l2) = (
-            2.0 * (s - 0.5) * (s - 1.0),
-            -4.0 * s * (s - 1.0),
-            2.0 * s * (s - 0.5),
-        );
-        out.clone_from(&self.x);
-        let half = &self.trial.half;
-        for ((o, a), b) in out
-            .moisture
-            .iter_mut()
-            .zip(&self.prev.moisture)
-            .zip(&half.moisture)
-        {
-            *o = l0 * a + l1 * b + l2 * *o;
-        }
-        for ((o, a), b) in out
-            .temperature
-            .iter_mut()
-            .zip(&self.prev.temperature)
-            .zip(&half.temperature)
-        {
-            *o = l0 * a + l1 * b + l2 * *o;
-        }
-    }
-
-    /// The coupled faces' conditions for the water laws `laws` at time `t`.
-    fn heat_faces(&self, laws: &FaceLaws, t: f64) -> HeatFaces {
-        let air = self.air_at(t);
-        let h = self
-            .problem
-            .steps
-            .get(self.step_index)
-            .and_then(|step| self.problem.heat_coef(step, air))
-            .unwrap_or(0.0);
-        let face = |law: FaceLaw| HeatFace {
-            law,
-            h,
-            t_air: air.dry_bulb_c,
-        };
-        HeatFaces {
-            a: face(laws.a),
-            b: face(laws.b),
-        }
-    }
-
-    fn laws_at(&self, t: f64) -> (FaceLaws, f64) {
-        let air = self.air_at(t);
-        let p = self.problem;
-        let law =
-            |site: Option<super::problem::FaceSite>| match (site, p.steps.get(self.step_index)) {
-                (Some(site), Some(step)) => p.face_law(step, air, site.material),
-                _ => super::problem::FaceLaw::Sealed,
-            };
-        (
-            FaceLaws {
-                a: law(p.face_a),
-                b: law(p.face_b),
-            },
-            air.dry_bulb_c,
-        )
+        self.method
+            .interpolate((t - self.prev_t) / dt, &self.prev, &self.x, out);
     }
 
     /// A first step small against the diffusion time of the smallest cell, so that a sudden
@@ -437,68 +432,31 @@ impl<'p> Stepper<'p> {
         self.newton_cap = f64::INFINITY;
     }
 
-    /// One backward-Euler solve at `t` over `dt` from the current state (`from_current`) or from
-    /// the trial's half step; returns what crossed the faces.
-    fn solve_be(
-        &mut self,
-        t: f64,
-        dt: f64,
-        which: fn(&mut Trial) -> &mut State,
-        from_current: bool,
-    ) -> Result<Exchanged, flux::NewtonFailure> {
-        let conditions = self.conditions_at(t + dt);
-        // The half step's result is the start of the second half: move it out of the way.
-        let mut new = std::mem::take(which(&mut self.trial));
-        let old = if from_current {
-            &self.x
-        } else {
-            &self.trial.half
-        };
-        let result = self
-            .model
-            .backward_euler(&conditions, dt, old, &mut new)
-            .map(|(rates, iterations)| (Exchanged::over(rates, dt), iterations));
-        *which(&mut self.trial) = new;
-        let (exchanged, iterations) = result?;
-        self.stats.newton_iterations += iterations as u64;
-        Ok(exchanged)
-    }
-
-    /// Computes the extrapolated candidate for a step of `dt`; returns (scaled error, what
-    /// crossed the faces).
+    /// Attempts a step of `dt` from the current state; returns (scaled error, what crossed the
+    /// faces). The end state is the method's candidate.
     fn attempt(&mut self, dt: f64) -> Result<(f64, Exchanged), flux::NewtonFailure> {
-        let t = self.t;
-        let full = self.solve_be(t, dt, |tr| &mut tr.full, true)?;
-        let h1 = self.solve_be(t, 0.5 * dt, |tr| &mut tr.half, true)?;
-        let h2 = self.solve_be(t + 0.5 * dt, 0.5 * dt, |tr| &mut tr.two_halves, false)?;
-        let scale = self.problem.tolerance * self.problem.moisture_scale;
-        let tr = &mut self.trial;
-        let mut err: f64 = 0.0;
-        for i in 0..tr.candidate.moisture.len() {
-            let (a, b) = (tr.full.moisture[i], tr.two_halves.moisture[i]);
-            err = err.max((b - a).abs() / scale);
-            tr.candidate.moisture[i] = 2.0 * b - a;
-        }
-        if let Some(th) = &self.problem.thermal {
-            let t_scale = self.problem.tolerance * th.temperature_scale;
-            for i in 0..tr.candidate.temperature.len() {
-                let (a, b) = (tr.full.temperature[i], tr.two_halves.temperature[i]);
-                err = err.max((b - a).abs() / t_scale);
-                tr.candidate.temperature[i] = 2.0 * b - a;
+        let scheduled = self.scheduled();
+        let a = self
+            .method
+            .attempt(self.model.as_mut(), &scheduled, self.t, dt, &self.x);
+        let a = match a {
+            Ok(a) => a,
+            Err(e) => {
+                // A failed solve leaves no Jacobian worth reusing.
+                self.model.invalidate_jacobian();
+                return Err(e);
             }
-        }
-        if !err.is_finite() {
-            return Err(flux::NewtonFailure::Breakdown);
-        }
-        Ok((err, h1.plus(h2).scaled(2.0).plus(full.scaled(-1.0))))
+        };
+        self.stats.newton_iterations += a.newton_iterations as u64;
+        Ok((a.error, a.exchanged))
     }
 
     fn accept(&mut self, dt: f64, exchanged: Exchanged) {
-        // The start of the step, kept with the trial's half step for dense output.
+        // The start of the step, kept for dense output.
         self.prev.clone_from(&self.x);
         self.prev_t = self.t;
-        std::mem::swap(&mut self.x, &mut self.trial.candidate);
         self.t += dt;
+        self.method.accept(&mut self.x, self.t, dt);
         self.exchanged = self.exchanged.plus(exchanged);
         self.stats.accepted += 1;
         self.newton_cap *= NEWTON_CAP_GROWTH;
@@ -567,7 +525,7 @@ impl<'p> Stepper<'p> {
                 self.dt = self.controller.next(dt, err);
                 continue;
             }
-            let after = self.problem.mean(&self.trial.candidate.moisture);
+            let after = self.problem.mean(&self.method.candidate().moisture);
             if let Some((which, level)) = self.crossed(before, after) {
                 return self.land_on_trigger(dt, err, outflow, before, after, which, level);
             }
@@ -582,6 +540,31 @@ impl<'p> Stepper<'p> {
             self.dt = next;
             return Ok(StopReason::Internal);
         }
+    }
+
+    /// Where the mean moisture of the method's interpolant over the candidate step (of length
+    /// `dt`, from mean `before`) crosses `level`, as a step length; `None` without a crossing.
+    fn interpolated_crossing(&self, before: f64, level: f64, dt: f64) -> Option<f64> {
+        let end = self.problem.mean(&self.method.candidate().moisture);
+        let slope = dt * self.problem.mean(&self.method.candidate_slope().moisture);
+        // p(s) = before + (2 D - S) s + (S - D) s^2 with D = end - before, S = dt mean'(end).
+        let delta = end - before;
+        let (a, b, c) = (slope - delta, 2.0 * delta - slope, before - level);
+        let in_step = |s: f64| (s > 0.0 && s < 1.0).then_some(s);
+        let s = if a.abs() <= 1e-12 * b.abs() {
+            in_step(-c / b)
+        } else {
+            let disc = b * b - 4.0 * a * c;
+            if disc < 0.0 {
+                return None;
+            }
+            // The two roots without cancellation; the first inside the step.
+            let q = -0.5 * (b + b.signum() * disc.sqrt());
+            let (r1, r2) = (q / a, c / q);
+            let (r1, r2) = if r1 <= r2 { (r1, r2) } else { (r2, r1) };
+            in_step(r1).or_else(|| in_step(r2))
+        };
+        s.map(|s| s * dt)
     }
 
     /// Shortens the step until the mean moisture lands on `level` (Illinois secant on dt).
@@ -604,7 +587,17 @@ impl<'p> Stepper<'p> {
         let mut buffers_hold_best = true;
         if f_hi.abs() > tol && f_lo.abs() > tol {
             for _ in 0..30 {
-                let mut d = hi - f_hi * (hi - lo) / (f_hi - f_lo);
+                // The crossing of the held candidate's interpolant first, else the secant, else
+                // the middle of the bracket.
+                let mut d = if buffers_hold_best {
+                    self.interpolated_crossing(before, level, best_dt)
+                        .unwrap_or(f64::NAN)
+                } else {
+                    f64::NAN
+                };
+                if !(d > lo && d < hi) {
+                    d = hi - f_hi * (hi - lo) / (f_hi - f_lo);
+                }
                 if !(d > lo && d < hi) {
                     d = 0.5 * (lo + hi);
                 }
@@ -616,7 +609,7 @@ impl<'p> Stepper<'p> {
                     f_hi = f_lo.signum() * -f_hi.abs().max(tol);
                     continue;
                 };
-                let f = self.problem.mean(&self.trial.candidate.moisture) - level;
+                let f = self.problem.mean(&self.method.candidate().moisture) - level;
                 (best_dt, best_out, best_err) = (d, out, e);
                 buffers_hold_best = true;
                 if f.abs() <= tol || (hi - lo) <= 1e-12 * self.problem.end_time {

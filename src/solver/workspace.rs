@@ -22,8 +22,18 @@ pub struct Workspace {
     pub scratch: Vec<f64>,
     /// The last Newton update, n (kept for backtracking).
     pub delta: Vec<f64>,
+    /// Net water inflow of each cell at the last evaluation, n.
+    pub inflow: Vec<f64>,
+    /// Whether `d_left` and `d_right` hold derivatives that may be reused.
+    pub jacobian_valid: bool,
+    /// The last contraction rate of the Newton iteration.
+    pub rate: f64,
     /// Linear solves done (counted here because the Newton loop owns them).
     pub linear_solves: u64,
+    /// Evaluations of the face derivatives.
+    pub jacobian_evaluations: u64,
+    /// The last solved unknown of each exposed face (A, B), to start the next solve from.
+    pub face_guess: [f64; 2],
 }
 
 impl Workspace {
@@ -39,7 +49,12 @@ impl Workspace {
             rhs: vec![0.0; n],
             scratch: vec![0.0; n],
             delta: vec![0.0; n],
+            inflow: vec![0.0; n],
+            jacobian_valid: false,
+            rate: 1.0,
             linear_solves: 0,
+            jacobian_evaluations: 0,
+            face_guess: [f64::NAN; 2],
         }
     }
 }
