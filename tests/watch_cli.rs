@@ -318,12 +318,12 @@ fn noise(len: usize) -> Vec<u8> {
 
 /// A case of a few seconds (see `books::slow_case`).
 fn slow_xlsx(path: &Path) {
-    books::write_xlsx(path, &books::slow_case("slow slab", 1500.0, 1e-7));
+    books::write_xlsx(path, &books::slow_case("slow slab", 5000.0, 1e-8));
 }
 
 /// A case that takes far longer than any test waits (more than 40 s on one idle core).
 fn very_slow_xlsx(path: &Path) {
-    books::write_xlsx(path, &books::slow_case("very slow slab", 20000.0, 1e-8));
+    books::write_xlsx(path, &books::slow_case("very slow slab", 50000.0, 1e-10));
 }
 
 #[test]

@@ -259,7 +259,8 @@ pub fn rich_case() -> Vec<Sheet> {
 }
 
 /// [`series_case`] on a fine mesh with a tight step tolerance, so that one run takes seconds
-/// (about 3 s for 1500 cells at 1e-7 on one core of the development machine).
+/// (about 2 s for 5000 cells at 1e-8 on one idle core of the development machine; 50,000
+/// cells at 1e-10 take over a minute).
 pub fn slow_case(title: &'static str, cells: f64, tolerance: f64) -> Vec<Sheet> {
     let mut sheets = series_case(title);
     sheets[0].1.push(vec![V::T("cells_per_layer"), V::N(cells)]);
