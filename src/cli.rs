@@ -110,9 +110,9 @@ pub enum Command {
         #[arg(long, value_name = "SECS", default_value_t = crate::limits::FOLDER_CASE_SECONDS)]
         case_seconds: f64,
     },
-    /// Write a ready-to-run example workbook: wood, food, clay or blank.
+    /// Write a ready-to-run example workbook: wood, food, clay, blank or lab.
     New {
-        /// wood, food, clay or blank.
+        /// wood, food, clay, blank or lab.
         kind: String,
         /// The workbook to write (.xlsx, or .csv for the sectioned CSV form).
         file: PathBuf,
@@ -349,7 +349,7 @@ fn solve(
 
 fn new(kind: &str, file: &Path) -> anyhow::Result<Outcome> {
     let Some(kind) = Kind::from_name(kind) else {
-        bail!("unknown example kind {kind:?}: choose wood, food, clay or blank");
+        bail!("unknown example kind {kind:?}: choose wood, food, clay, blank or lab");
     };
     if file.exists() {
         bail!(

@@ -4,7 +4,7 @@ mod support;
 
 use support::{keep_outputs, output_text, run_in, scratch};
 
-const KINDS: [&str; 4] = ["wood", "food", "clay", "blank"];
+const KINDS: [&str; 5] = ["wood", "food", "clay", "blank", "lab"];
 
 #[test]
 fn committed_templates_equal_a_fresh_new_and_each_one_solves() {

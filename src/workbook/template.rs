@@ -21,11 +21,14 @@ pub enum Kind {
     Clay,
     /// The smallest runnable case: one layer, constant D, fixed surface (has a series check).
     Blank,
+    /// A lab apple slice on a balance: measured points and a `fit` sheet estimating D and the
+    /// surface coefficient.
+    Lab,
 }
 
 impl Kind {
     /// Every kind, in the order the command line lists them.
-    pub const ALL: [Kind; 4] = [Kind::Wood, Kind::Food, Kind::Clay, Kind::Blank];
+    pub const ALL: [Kind; 5] = [Kind::Wood, Kind::Food, Kind::Clay, Kind::Blank, Kind::Lab];
 
     /// The name used on the command line and for template files.
     pub fn name(self) -> &'static str {
@@ -34,6 +37,7 @@ impl Kind {
             Kind::Food => "food",
             Kind::Clay => "clay",
             Kind::Blank => "blank",
+            Kind::Lab => "lab",
         }
     }
 
@@ -146,6 +150,7 @@ pub fn sheets(kind: Kind) -> Vec<Sheet> {
         Kind::Food => food(),
         Kind::Clay => clay(),
         Kind::Blank => blank(),
+        Kind::Lab => lab(),
     }
 }
 
