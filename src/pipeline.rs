@@ -452,9 +452,11 @@ impl Pipeline {
             deadline,
         };
         let fit_report = parsed.fit_report(&run, budget);
-        let study = self.study(&book, input, &run, case, cancel);
+        warnings.extend(measured_after_end(&parsed.measured, &run));
+        let study = self.study(&book, input, &run, case, &warnings, cancel);
         if let Some(s) = &study {
             warnings.extend(s.problems.iter().map(ToString::to_string));
+            warnings.extend(s.warnings.iter().cloned());
         }
         let variants = study
             .as_ref()
@@ -617,6 +619,9 @@ struct Solved {
     problems: Vec<InputProblem>,
     /// How many variants could not run.
     failed: usize,
+    /// Warnings of the variants that the base case does not have, each `variants!CELL: variant
+    /// NAME: ...`, and names used twice.
+    warnings: Vec<String>,
 }
 
 impl Pipeline {
@@ -627,6 +632,7 @@ impl Pipeline {
         input: &Path,
         run: &solver::RunResult,
         case: &Case,
+        base_warnings: &[String],
         cancel: &AtomicBool,
     ) -> Option<Solved> {
         use crate::study::{self, Status as V};
@@ -651,6 +657,7 @@ impl Pipeline {
             .flat_map(|o| o.problems.iter().cloned())
             .collect();
         let failed = bad.len();
+        let warnings = variant_warnings(&s, &outcomes, base_warnings);
         let base_curve = study::run::thin(
             study::run::mean_curve(case, run),
             crate::limits::MAX_VARIANT_CURVE_POINTS,
@@ -660,8 +667,59 @@ impl Pipeline {
             base_curve,
             problems,
             failed,
+            warnings,
         })
     }
+}
+
+/// A warning when measured points lie after the run's end: the comparison leaves them out.
+fn measured_after_end(
+    measured: &[crate::workbook::parse::Measured],
+    run: &solver::RunResult,
+) -> Option<String> {
+    let end_h = run.last()?.time / 3600.0;
+    let after: Vec<f64> = measured
+        .iter()
+        .map(|m| m.hours)
+        .filter(|&h| h > end_h * (1.0 + 1e-9))
+        .collect();
+    let last = after.iter().copied().fold(f64::NAN, f64::max);
+    (!after.is_empty()).then(|| {
+        format!(
+            "measured: {} point(s) lie after the run's end at {} h (the last at {} h); the \
+             model-against-measured rows and their goodness of fit leave them out, while a \
+             parameter estimation runs the model on to them. Raise end_hours to compare them all",
+            after.len(),
+            crate::text::compact(end_h),
+            crate::text::compact(last)
+        )
+    })
+}
+
+/// The variants' own warnings (those the base case does not give too), at each variant's cell,
+/// and a warning for a variant name used twice (the table and chart could not tell them apart).
+fn variant_warnings(
+    study: &crate::study::Study,
+    outcomes: &[crate::study::run::Outcome],
+    base_warnings: &[String],
+) -> Vec<String> {
+    let mut out = Vec::new();
+    let mut seen: Vec<&str> = Vec::new();
+    for (v, o) in study.variants.iter().zip(outcomes) {
+        let at = format!("{}!{}", study.sheet, v.cell);
+        if seen.contains(&v.name.as_str()) {
+            out.push(format!(
+                "{at}: the variant name \"{}\" is used twice; the variants table and chart \
+                 cannot tell the two apart",
+                v.name
+            ));
+        }
+        seen.push(&v.name);
+        for w in o.warnings.iter().filter(|w| !base_warnings.contains(w)) {
+            out.push(format!("{at}: variant {}: {w}", v.name));
+        }
+    }
+    out
 }
 
 /// What a run wrote, for the command line's answer.

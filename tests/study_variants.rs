@@ -246,3 +246,43 @@ fn bad_variants_are_input_errors_at_their_cells_and_the_others_all_run() {
     assert_eq!(listed, status);
     assert_eq!(json["variants"][3]["problems"][0], expect[1]);
 }
+
+#[test]
+fn a_variants_own_warnings_reach_the_summary_at_its_cell_and_a_name_used_twice_is_told() {
+    use V::*;
+    // 333 in a °C column is the usual kelvin slip (the base case's check warns above 150 °C);
+    // the base case itself (40 °C) has no warning.
+    let variants = vec![
+        vec![T("variant"), T("schedule.dry_bulb_c[1]")],
+        vec![T("kelvin"), N(333.0)],
+        vec![T("same"), N(45.0)],
+        vec![T("same"), N(50.0)],
+    ];
+    let dir = scratch();
+    books::write_xlsx(
+        &dir.path().join("warned.xlsx"),
+        &fixed_surface_case(variants),
+    );
+    let out = run_in(dir.path(), &["solve", "warned.xlsx"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    let summary = sheet(&dir.path().join("warned.result.xlsx"), "summary");
+    let warnings: Vec<String> = summary
+        .rows()
+        .filter(|r| text(&r[0]) == "warning")
+        .map(|r| text(&r[1]))
+        .collect();
+    keep_outputs(dir.path(), "variants_warned");
+    assert!(
+        warnings.iter().any(
+            |w| w.starts_with("variants!A2: variant kelvin: schedule!B2:") && w.contains("333")
+        ),
+        "{warnings:?}"
+    );
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.starts_with("variants!A4:") && w.contains("used twice")),
+        "{warnings:?}"
+    );
+    assert_eq!(warnings.len(), 2, "{warnings:?}");
+}

@@ -208,6 +208,18 @@ fn fits_that_cannot_work_say_so_on_the_sheet() {
             assert!(text(&rows[2][1]).is_empty() && text(&rows[3][1]).is_empty());
         } else {
             assert!(text(&rows[1][1]).is_empty(), "{:?}", rows[1]);
+            // No drying-model rows fitted to one point or a flat series: a note says why.
+            let note = rows
+                .iter()
+                .find(|r| r.len() > 1 && text(&r[0]) == "note")
+                .map(|r| text(&r[1]))
+                .unwrap_or_default();
+            assert!(note.starts_with("no drying models"), "{note:?}");
+            assert!(
+                !rows
+                    .iter()
+                    .any(|r| r.first().map(text).as_deref() == Some("lewis"))
+            );
         }
     }
 }
@@ -228,4 +240,19 @@ fn an_unknown_parameter_is_an_input_problem_at_its_cell() {
         text.contains("fit!B") && text.contains("unknown parameter \"diffusivity\""),
         "{text}"
     );
+}
+
+#[test]
+fn measured_points_after_the_runs_end_are_told() {
+    // The series points run to 80 h; the run stops at 50 h, so 15 points (52 to 80 h) are after it.
+    let csv = lab_csv(1e-9, &series_points(), "").replace("end_hours,80", "end_hours,50");
+    let dir = scratch();
+    std::fs::write(dir.path().join("lab.csv"), csv).expect("written");
+    let out = run_in(dir.path(), &["solve", "lab.csv"]);
+    assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    let summary = sheet(&dir.path().join("lab.result.xlsx"), "summary");
+    let warned = summary.rows().any(|r| {
+        text(&r[0]) == "warning" && text(&r[1]).starts_with("measured: 15 point(s) lie after")
+    });
+    assert!(warned, "{:?}", summary.rows().collect::<Vec<_>>());
 }

@@ -539,12 +539,21 @@ pub fn estimate(
     // A parameter with no influence on the curve cannot be estimated: hold it at its input.
     let active: Vec<usize> = (0..p_count).filter(|&j| influence[j]).collect();
     for j in (0..p_count).filter(|&j| !influence[j]) {
+        let key = params[j].key();
+        let why = if key.starts_with("activation_energy") {
+            "the temperature stays at the material's reference temperature, so the activation \
+             energy changes nothing"
+                .to_string()
+        } else {
+            format!(
+                "at its starting value the model may already be dry, or not yet drying, at every \
+                 measured time; type a starting {key} nearer to what the data suggest (the slope \
+                 method's diffusivity on this sheet is a guide) and run again"
+            )
+        };
         messages.push(format!(
-            "{} has no influence on the model's mean moisture at the measured times (for \
-             example an activation energy when the temperature stays at the reference \
-             temperature): it cannot be estimated from these data and was held at its input \
-             value",
-            params[j].key()
+            "{key} has no influence on the model's mean moisture at the measured times ({why}): \
+             it cannot be estimated from this start and was held at its input value"
         ));
     }
     let mut result = Estimation::failed(request, case, Vec::new(), n);

@@ -50,6 +50,8 @@ pub struct FitReport {
     pub drying_models: Vec<ModelFit>,
     /// Crank's slope method, m²/s.
     pub slope_d_eff: Option<f64>,
+    /// Why the drying models were not fitted, in plain words (too few points, no drying).
+    pub drying_models_note: Option<String>,
 }
 
 /// The run's mean moisture (dry fraction) at `t` (s), by linear interpolation between curve
@@ -138,10 +140,38 @@ pub fn report(
             mr.push((m.moisture - x_eq) / (x0 - x_eq));
         }
     }
-    let drying_models = fit_drying_models(&t_h, &mr);
-    let (shape, length) = series_body(case);
-    let t_s: Vec<f64> = t_h.iter().map(|h| h * 3600.0).collect();
-    let slope_d_eff = slope_method(shape, length, &t_s, &mr).filter(|d| d.is_finite());
+    let spread = mr.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+        - mr.iter().copied().fold(f64::INFINITY, f64::min);
+    // A fit to fewer points than a model's parameters, or to a flat series, gives numbers that
+    // mean nothing; say so instead of ranking them.
+    let drying_models_note = if mr.is_empty() {
+        Some(String::from(
+            "no drying models: the moisture ratio needs the first step's equilibrium moisture \
+             (an isotherm, a fixed surface or equilibrium_moisture_pct) and a start away from it",
+        ))
+    } else if mr.len() < 3 {
+        Some(format!(
+            "no drying models: {} measured point(s); at least 3 are needed",
+            mr.len()
+        ))
+    } else if spread.is_nan() || spread < 1e-6 {
+        Some(String::from(
+            "no drying models: the measured moisture does not change, so there is no drying \
+             curve to fit",
+        ))
+    } else {
+        None
+    };
+    let (drying_models, slope_d_eff) = if drying_models_note.is_none() {
+        let (shape, length) = series_body(case);
+        let t_s: Vec<f64> = t_h.iter().map(|h| h * 3600.0).collect();
+        (
+            fit_drying_models(&t_h, &mr),
+            slope_method(shape, length, &t_s, &mr).filter(|d| d.is_finite()),
+        )
+    } else {
+        (Vec::new(), None)
+    };
     FitReport {
         estimation,
         points,
@@ -149,5 +179,6 @@ pub fn report(
         fitted,
         drying_models,
         slope_d_eff,
+        drying_models_note,
     }
 }

@@ -37,6 +37,8 @@ pub struct Outcome {
     pub curve: Vec<(f64, f64)>,
     /// Its input problems (status `input_error`) or the solver's message (`solver_error`).
     pub problems: Vec<InputProblem>,
+    /// Its warnings as the base case's would read (`SHEET!CELL: text`), from reading and solving.
+    pub warnings: Vec<String>,
 }
 
 /// Limits each variant's solve shares with a single case.
@@ -106,6 +108,7 @@ fn blank(v: &Variant) -> Outcome {
         final_centre_temp_c: None,
         curve: Vec::new(),
         problems: Vec::new(),
+        warnings: Vec::new(),
     }
 }
 
@@ -133,6 +136,7 @@ fn solve_one(
             return out;
         }
     };
+    out.warnings.clone_from(&parsed.warnings);
     let case = parsed.case.case();
     let problem = Problem::new(&parsed.case);
     let started = Instant::now();
@@ -159,6 +163,7 @@ fn solve_one(
             return out;
         }
     };
+    out.warnings.extend(run.warnings.iter().cloned());
     out.status = match run.status {
         RunStatus::Ok => Status::Ok,
         RunStatus::TargetNotReached => Status::TargetNotReached,

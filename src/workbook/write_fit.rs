@@ -202,6 +202,11 @@ fn drying_model_table(
             opt_number(ws, row, c as u16 + 1, *v, format)?;
         }
     }
+    if let Some(note) = &report.drying_models_note {
+        row += 1;
+        ws.write_string(row, 0, "note")?;
+        ws.write_string(row, 1, note)?;
+    }
     row += 2;
     ws.write_string(row, 0, "slope_method_d_eff_m2_s")?;
     opt_number(ws, row, 1, report.slope_d_eff, &f.small)?;
