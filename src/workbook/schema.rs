@@ -223,7 +223,7 @@ impl Field {
         }
     }
 
-    /// What a message says was expected: `a number of mm`, `a temperature in C`.
+    /// What a message says was expected: `a number of mm`, `a temperature in °C`.
     pub fn expected(&self) -> String {
         match (self.kind, self.unit) {
             (Kind::Text, _) => String::from("text"),
@@ -231,7 +231,7 @@ impl Field {
             (_, "") => String::from("a number"),
             (_, "h") => String::from("a number of hours"),
             (_, "min") => String::from("a number of minutes"),
-            (_, "C") => String::from("a temperature in C"),
+            (_, "C") => String::from("a temperature in °C"),
             (_, u) => format!("a number of {u}"),
         }
     }
@@ -663,6 +663,16 @@ pub fn note(name: &str) -> Option<&'static str> {
 #[allow(clippy::unwrap_used)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn temperatures_are_expected_in_degrees_celsius() {
+        let f = field("schedule", "dry_bulb_c").unwrap();
+        assert_eq!(f.expected(), "a temperature in °C");
+        assert_eq!(
+            field("layers", "thickness_mm").unwrap().expected(),
+            "a number of mm"
+        );
+    }
 
     #[test]
     fn names_are_unique_lower_case_and_documented() {

@@ -54,7 +54,7 @@ impl Unit {
             "" => String::from("a number"),
             "h" => String::from("a number of hours"),
             "min" => String::from("a number of minutes"),
-            "C" => String::from("a temperature in C"),
+            "C" => String::from("a temperature in °C"),
             u => format!("a number of {u}"),
         }
     }
@@ -353,7 +353,7 @@ impl Ctx {
         if let (Some((lo, hi)), Some((ulo, uhi))) = (field.range, field.user_range()) {
             let si = field.conv.to_si(x);
             if !(lo..=hi).contains(&si) {
-                let unit = if field.unit == "C" { "C" } else { field.unit };
+                let unit = if field.unit == "C" { "°C" } else { field.unit };
                 self.problem(
                     at,
                     place,
