@@ -544,6 +544,8 @@ impl Pipeline {
                     s.failed,
                     report.detail
                 );
+                // The base case did run: its drying time belongs in the run's table.
+                report.drying_time_h = run.drying_time.map(|t| t / 3600.0);
             }
             return (report, problems);
         }

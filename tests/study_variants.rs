@@ -286,3 +286,29 @@ fn a_variants_own_warnings_reach_the_summary_at_its_cell_and_a_name_used_twice_i
     );
     assert_eq!(warnings.len(), 2, "{warnings:?}");
 }
+
+#[test]
+fn batch_gives_the_base_cases_drying_time_when_a_variant_could_not_run() {
+    use V::*;
+    let variants = vec![
+        vec![T("variant"), T("layers.thickness_mm[1]")],
+        vec![T("fine"), N(12.0)],
+        vec![T("typo"), T("abc")],
+    ];
+    let dir = scratch();
+    books::write_xlsx(
+        &dir.path().join("partial.xlsx"),
+        &fixed_surface_case(variants),
+    );
+    let out = run_in(dir.path(), &["batch", "."]);
+    assert_eq!(out.status.code(), Some(1), "{}", output_text(&out));
+    let shown = output_text(&out);
+    let line = shown
+        .lines()
+        .find(|l| l.starts_with("partial.xlsx"))
+        .unwrap_or_else(|| panic!("{shown}"));
+    let cells: Vec<&str> = line.split_whitespace().collect();
+    assert_eq!(cells[1], "problems", "{line}");
+    let hours: f64 = cells[2].parse().unwrap_or_else(|_| panic!("{line}"));
+    assert!(hours > 0.0, "{line}");
+}
