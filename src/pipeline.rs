@@ -705,7 +705,16 @@ fn variant_warnings(
     outcomes: &[crate::study::run::Outcome],
     base_warnings: &[String],
 ) -> Vec<String> {
-    let mut out = Vec::new();
+    let mut out: Vec<String> = study
+        .unused_columns
+        .iter()
+        .map(|(cell, path)| {
+            format!(
+                "{}!{cell}: no variant gives a value under {path}; the column changed nothing",
+                study.sheet
+            )
+        })
+        .collect();
     let mut seen: Vec<&str> = Vec::new();
     for (v, o) in study.variants.iter().zip(outcomes) {
         let at = format!("{}!{}", study.sheet, v.cell);

@@ -253,7 +253,12 @@ fn a_variants_own_warnings_reach_the_summary_at_its_cell_and_a_name_used_twice_i
     // 333 in a °C column is the usual kelvin slip (the base case's check warns above 150 °C);
     // the base case itself (40 °C) has no warning.
     let variants = vec![
-        vec![T("variant"), T("schedule.dry_bulb_c[1]")],
+        // A typed path with nothing under it is told too.
+        vec![
+            T("variant"),
+            T("schedule.dry_bulb_c[1]"),
+            T("case.foo_typo"),
+        ],
         vec![T("kelvin"), N(333.0)],
         vec![T("same"), N(45.0)],
         vec![T("same"), N(50.0)],
@@ -284,7 +289,13 @@ fn a_variants_own_warnings_reach_the_summary_at_its_cell_and_a_name_used_twice_i
             .any(|w| w.starts_with("variants!A4:") && w.contains("used twice")),
         "{warnings:?}"
     );
-    assert_eq!(warnings.len(), 2, "{warnings:?}");
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.starts_with("variants!C1: no variant gives a value under case.foo_typo")),
+        "{warnings:?}"
+    );
+    assert_eq!(warnings.len(), 3, "{warnings:?}");
 }
 
 #[test]

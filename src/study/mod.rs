@@ -191,6 +191,8 @@ pub struct Study {
     pub sheet: String,
     /// The variants, in input order.
     pub variants: Vec<Variant>,
+    /// Header paths with no value under them in any variant: (header cell, path as typed).
+    pub unused_columns: Vec<(String, String)>,
 }
 
 fn canonical(v: &RawValue) -> String {
@@ -223,6 +225,7 @@ pub fn read(book: &RawBook) -> Option<Study> {
         })
         .collect();
     let mut variants = Vec::new();
+    let mut used: Vec<u32> = Vec::new();
     for row in rows {
         // A value under no header is kept with an empty path: the variant then says so at
         // its cell rather than running without it.
@@ -250,6 +253,12 @@ pub fn read(book: &RawBook) -> Option<Study> {
         if named.is_none() && overrides.is_empty() {
             continue;
         }
+        used.extend(
+            row.cells
+                .iter()
+                .filter(|(_, v)| !v.is_blank())
+                .map(|(c, _)| *c),
+        );
         let n = variants.len() + 1;
         variants.push(Variant {
             name: named.unwrap_or_else(|| format!("variant {n}")),
@@ -257,9 +266,16 @@ pub fn read(book: &RawBook) -> Option<Study> {
             overrides,
         });
     }
+    // A typed path with nothing under it changes nothing; say so rather than pass it by.
+    let unused_columns = paths
+        .iter()
+        .filter(|(c, _)| !used.contains(c))
+        .map(|(c, p)| (a1(header.row, *c), p.clone()))
+        .collect();
     (!variants.is_empty()).then(|| Study {
         sheet: sheet.name.clone(),
         variants,
+        unused_columns,
     })
 }
 
