@@ -137,14 +137,19 @@ proptest! {
         air in air(),
     ) {
         // Every layer starts at a water activity of at least 0.6, the air is at most 0.5.
-        let r = solve(&case(&layers, air, Exposed::A, 24.0));
-        for pair in r.curves.windows(2) {
-            let (a, b) = (pair[0].mean, pair[1].mean);
-            prop_assert!(b <= a * (1.0 + 1e-12), "mean rose from {a} to {b} at {} s", pair[1].time);
-        }
+        let c = case(&layers, air, Exposed::A, 24.0);
+        let r = solve(&c);
         let first = r.curves.first().map(|c| c.mean).unwrap_or_default();
         let last = r.last().map(|c| c.mean).unwrap_or_default();
         prop_assert!(last < first, "no drying: {first} -> {last}");
+        // TR-BDF2 and its dense output are not monotone: near equilibrium a step may carry a
+        // deviation as large as the error control admits (tolerance x the range dried). A real
+        // wetting would be far larger than that.
+        let allowed = c.tolerance * (first - last);
+        for pair in r.curves.windows(2) {
+            let (a, b) = (pair[0].mean, pair[1].mean);
+            prop_assert!(b <= a + allowed, "mean rose from {a} to {b} at {} s", pair[1].time);
+        }
     }
 
     #[test]
