@@ -24,7 +24,7 @@
 //! reports both balances.
 
 use super::blocktri::{self, Block};
-use super::flux::{self, NEWTON_FRACTION, NewtonFailure, NewtonSettings};
+use super::flux::{self, Contraction, NewtonFailure, NewtonSettings};
 use super::problem::{
     FaceLaw, FaceSite, InnerFace, MaterialProps, Problem, Thermal, WATER_SPECIFIC_HEAT,
     saturated_vapour_density,
@@ -34,9 +34,6 @@ use crate::physics::psychro::latent_heat_j_kg;
 
 /// Maximum Newton iterations per coupled stage solve.
 const MAX_NEWTON: usize = 25;
-
-/// Above this contraction rate a reused Jacobian is refreshed.
-const REFRESH_RATE: f64 = 0.3;
 
 const CW: f64 = WATER_SPECIFIC_HEAT;
 
@@ -772,7 +769,7 @@ pub fn solve_stage(
     let mut backtracks = 0;
     let mut restarted = false;
     let mut converged = false;
-    let mut last_update = f64::INFINITY;
+    let mut contraction = Contraction::new();
     for iteration in 0..=MAX_NEWTON {
         let fresh = !ws.jacobian_valid;
         let surfaces = evaluate_faces_with(problem, thermal, faces, new, ws, fresh);
@@ -865,19 +862,9 @@ pub fn solve_stage(
                 .max(ws.rhs[i][0].abs() / tol_x)
                 .max(ws.rhs[i][1].abs() / tol_t);
         }
-        let rate = if iteration > 0 && last_update > 0.0 {
-            update / last_update
-        } else {
-            ws.rate.max(1e-3).powf(0.8)
-        };
-        if iteration > 0 {
-            ws.rate = rate;
-        }
-        last_update = update;
-        converged = settings.linear
-            || update <= NEWTON_FRACTION * 1e-2
-            || (rate < 1.0 && rate / (1.0 - rate) * update <= NEWTON_FRACTION);
-        if !converged && (rate > REFRESH_RATE || iteration >= 4) {
+        let refresh;
+        (converged, refresh) = contraction.judge(iteration, update, &mut ws.rate, settings.linear);
+        if refresh {
             ws.jacobian_valid = false;
         }
     }

@@ -571,6 +571,48 @@ pub const NEWTON_FRACTION: f64 = 0.03;
 /// Above this contraction rate a reused (modified-Newton) Jacobian is refreshed.
 const REFRESH_RATE: f64 = 0.3;
 
+/// Newton's stopping and refresh test, shared by the moisture and the coupled stage solves.
+/// Updates are in the error norm's units (1 = the tolerance).
+pub(super) struct Contraction {
+    last_update: f64,
+}
+
+impl Contraction {
+    pub(super) fn new() -> Contraction {
+        Contraction {
+            last_update: f64::INFINITY,
+        }
+    }
+
+    /// After update number `iteration` of scaled size `update`: whether the iterate is
+    /// accepted, and whether the Jacobian should be rebuilt before the next update. `kept_rate`
+    /// carries the last measured contraction rate from one solve to the next.
+    pub(super) fn judge(
+        &mut self,
+        iteration: usize,
+        update: f64,
+        kept_rate: &mut f64,
+        linear: bool,
+    ) -> (bool, bool) {
+        // The contraction rate: measured from the second update on, else the last one seen.
+        let rate = if iteration > 0 && self.last_update > 0.0 {
+            update / self.last_update
+        } else {
+            // Before a rate is measured, the last one seen, raised a little for safety.
+            kept_rate.max(1e-3).powf(0.8)
+        };
+        if iteration > 0 {
+            *kept_rate = rate;
+        }
+        self.last_update = update;
+        let converged = linear
+            || update <= NEWTON_FRACTION * 1e-2
+            || (rate < 1.0 && rate / (1.0 - rate) * update <= NEWTON_FRACTION);
+        let refresh = !converged && (rate > REFRESH_RATE || iteration >= 4);
+        (converged, refresh)
+    }
+}
+
 /// Solves one implicit stage `m_i x_i - c_dt * inflow_i(x) = b_i` for every cell (b in kg of
 /// water per unit normalised area) by Newton's method, starting from the guess in `x` (`fallback`
 /// when the guess gives non-finite values). The face derivatives are reused from an earlier
@@ -600,7 +642,7 @@ pub fn solve_stage(
     let mut backtracks = 0;
     let mut restarted = false;
     let mut converged = false;
-    let mut last_update = f64::INFINITY;
+    let mut contraction = Contraction::new();
     for iteration in 0..=MAX_NEWTON {
         let fresh = !ws.jacobian_valid;
         let surfaces = evaluate_faces_with(problem, laws, t_c, x, ws, fresh);
@@ -669,22 +711,10 @@ pub fn solve_stage(
             *v += r;
             update = update.max(r.abs());
         }
-        let update = update / tol;
-        // The contraction rate: measured from the second update on, else the last one seen.
-        let rate = if iteration > 0 && last_update > 0.0 {
-            update / last_update
-        } else {
-            // Before a rate is measured, the last one seen, raised a little for safety.
-            ws.rate.max(1e-3).powf(0.8)
-        };
-        if iteration > 0 {
-            ws.rate = rate;
-        }
-        last_update = update;
-        converged = settings.linear
-            || update <= NEWTON_FRACTION * 1e-2
-            || (rate < 1.0 && rate / (1.0 - rate) * update <= NEWTON_FRACTION);
-        if !converged && (rate > REFRESH_RATE || iteration >= 4) {
+        let refresh;
+        (converged, refresh) =
+            contraction.judge(iteration, update / tol, &mut ws.rate, settings.linear);
+        if refresh {
             ws.jacobian_valid = false;
         }
     }

@@ -203,22 +203,8 @@ impl TrBdf2 {
         }
         let s = GAMMA * dt / self.kept_dt;
         let f = (s / (1.0 - GAMMA)).min(2.0);
-        for (o, (a, b)) in self
-            .stage
-            .moisture
-            .iter_mut()
-            .zip(self.kept_stage.moisture.iter().zip(&y.moisture))
-        {
-            *o = b + f * (b - a);
-        }
-        for (o, (a, b)) in self
-            .stage
-            .temperature
-            .iter_mut()
-            .zip(self.kept_stage.temperature.iter().zip(&y.temperature))
-        {
-            *o = b + f * (b - a);
-        }
+        self.stage
+            .update_with(&self.kept_stage, y, |_, a, b| b + f * (b - a));
     }
 }
 
@@ -289,24 +275,8 @@ impl Method for TrBdf2 {
             *r = u + dt * W * (g0 + gg);
         }
         let reach = 1.0 / GAMMA;
-        for ((o, a), b) in self
-            .end
-            .moisture
-            .iter_mut()
-            .zip(&y.moisture)
-            .zip(&self.stage.moisture)
-        {
-            *o = a + reach * (b - a);
-        }
-        for ((o, a), b) in self
-            .end
-            .temperature
-            .iter_mut()
-            .zip(&y.temperature)
-            .zip(&self.stage.temperature)
-        {
-            *o = a + reach * (b - a);
-        }
+        self.end
+            .update_with(y, &self.stage, |_, a, b| a + reach * (b - a));
         let (r1, it) = model.solve_stage(
             &conditions.at(t + dt),
             D * dt,
@@ -384,22 +354,9 @@ impl Method for TrBdf2 {
         // D = end - start and S = dt y'(end), p(s) = start + (2 D - S) s + (S - D) s^2.
         let (a, b) = (s * (2.0 - s), s * (s - 1.0));
         out.clone_from(end);
-        for ((o, y0), sl) in out
-            .moisture
-            .iter_mut()
-            .zip(&start.moisture)
-            .zip(&self.kept_slope.moisture)
-        {
-            *o = y0 + a * (*o - y0) + b * sl;
-        }
-        for ((o, y0), sl) in out
-            .temperature
-            .iter_mut()
-            .zip(&start.temperature)
-            .zip(&self.kept_slope.temperature)
-        {
-            *o = y0 + a * (*o - y0) + b * sl;
-        }
+        out.update_with(start, &self.kept_slope, |o, y0, sl| {
+            y0 + a * (o - y0) + b * sl
+        });
     }
 
     fn restart(&mut self) {

@@ -24,6 +24,18 @@ impl State {
         !self.temperature.is_empty()
     }
 
+    /// Sets every value, moisture and temperature alike, to `f(own, a, b)` of the same cell.
+    pub fn update_with(&mut self, a: &State, b: &State, f: impl Fn(f64, f64, f64) -> f64) {
+        for (own, a, b) in [
+            (&mut self.moisture, &a.moisture, &b.moisture),
+            (&mut self.temperature, &a.temperature, &b.temperature),
+        ] {
+            for ((o, x), y) in own.iter_mut().zip(a).zip(b) {
+                *o = f(*o, *x, *y);
+            }
+        }
+    }
+
     /// Copies `other` into `self` without allocating.
     pub fn copy_from(&mut self, other: &State) {
         self.moisture.copy_from_slice(&other.moisture);
