@@ -693,51 +693,49 @@ pub fn evaluate_faces_with(
         ws.deriv[k] = [[0.0; 4]; 2];
     }
     let mut out = CoupledSurfaces::default();
-    if let Some(site) = &problem.face_a {
+    for (side, site, heat) in [
+        (0, &problem.face_a, &faces.a),
+        (1, &problem.face_b, &faces.b),
+    ] {
+        let Some(site) = site else { continue };
         let m = &problem.materials[site.material];
         let kc = thermal.conductivity[site.material];
         let (s, guess) = solve_face_with(
             m,
             kc,
             site,
-            &faces.a,
+            heat,
             (x[site.cell], t[site.cell]),
             scale,
             true,
-            ws.face_guess[0],
+            ws.face_guess[side],
         );
-        ws.face_guess[0] = guess;
-        // Face A's fluxes run towards -s: water out is -F_0, energy in is +Q_0; both depend on
-        // the cell to the face's right (cell 0).
-        ws.water[0] = -s.outflow;
-        ws.energy[0] = s.energy_in;
-        ws.deriv[0] = [
-            [0.0, 0.0, -s.d_outflow[0], -s.d_outflow[1]],
-            [0.0, 0.0, s.d_energy[0], s.d_energy[1]],
-        ];
-        out.a = Some(s);
-    }
-    if let Some(site) = &problem.face_b {
-        let m = &problem.materials[site.material];
-        let kc = thermal.conductivity[site.material];
-        let (s, guess) = solve_face_with(
-            m,
-            kc,
-            site,
-            &faces.b,
-            (x[site.cell], t[site.cell]),
-            scale,
-            true,
-            ws.face_guess[1],
-        );
-        ws.face_guess[1] = guess;
-        ws.water[n] = s.outflow;
-        ws.energy[n] = -s.energy_in;
-        ws.deriv[n] = [
-            [s.d_outflow[0], s.d_outflow[1], 0.0, 0.0],
-            [-s.d_energy[0], -s.d_energy[1], 0.0, 0.0],
-        ];
-        out.b = Some(s);
+        ws.face_guess[side] = guess;
+        // Face fluxes run towards +s. At face A (k = 0) water out runs towards -s and energy in
+        // towards +s; at face B (k = n) the other way round. Each depends only on the cell
+        // beside the face: to its right at A (the block's second pair), to its left at B.
+        let sign = if side == 0 { -1.0 } else { 1.0 };
+        let water = [sign * s.d_outflow[0], sign * s.d_outflow[1]];
+        let energy = [-sign * s.d_energy[0], -sign * s.d_energy[1]];
+        let k = if side == 0 { 0 } else { n };
+        ws.water[k] = sign * s.outflow;
+        ws.energy[k] = -sign * s.energy_in;
+        ws.deriv[k] = if side == 0 {
+            [
+                [0.0, 0.0, water[0], water[1]],
+                [0.0, 0.0, energy[0], energy[1]],
+            ]
+        } else {
+            [
+                [water[0], water[1], 0.0, 0.0],
+                [energy[0], energy[1], 0.0, 0.0],
+            ]
+        };
+        if side == 0 {
+            out.a = Some(s);
+        } else {
+            out.b = Some(s);
+        }
     }
     out
 }
