@@ -137,8 +137,25 @@ fn solve_one(
         }
     };
     out.warnings.clone_from(&parsed.warnings);
-    let case = parsed.case.case();
-    let problem = Problem::new(&parsed.case);
+    // A variant writes no profiles: it asks for none, so none are recorded or warned about.
+    let mut case = parsed.case.into_case();
+    case.profile_times = Some(Vec::new());
+    let valid = match case.validated() {
+        Ok(valid) => valid,
+        Err(problems) => {
+            out.problems = problems
+                .iter()
+                .map(|p| InputProblem {
+                    sheet: study.sheet.clone(),
+                    cell: v.cell.clone(),
+                    problem: format!("variant {}: {p}", v.name),
+                })
+                .collect();
+            return out;
+        }
+    };
+    let case = valid.case();
+    let problem = Problem::new(&valid);
     let started = Instant::now();
     let deadline = budget.case_seconds.and_then(|s| {
         Some((
@@ -163,13 +180,7 @@ fn solve_one(
             return out;
         }
     };
-    // A variant writes no profiles, so the run's word on profile_hours it did not reach is noise.
-    out.warnings.extend(
-        run.warnings
-            .iter()
-            .filter(|w| !w.contains("profile_hours"))
-            .cloned(),
-    );
+    out.warnings.extend(run.warnings.iter().cloned());
     out.status = match run.status {
         RunStatus::Ok => Status::Ok,
         RunStatus::TargetNotReached => Status::TargetNotReached,
