@@ -3,7 +3,8 @@
 For the bench problems P1-P4 (issue 8; defined in benches/common/mod.rs) this script solves the
 same cell-centred finite-volume discretisation as dampfront (the same cell centres, face areas,
 cell volumes, D at the face from the mean of its two cells, the exposed face's surface balance
-over the half cell) with scipy's ``solve_ivp(method="BDF")`` and a sparse (tridiagonal)
+with dampfront's second-order surface gradient: conduction from X* = w1 X_1 + w2 X_2 over the
+distance h1 h2 / (h1 + h2)) with scipy's ``solve_ivp(method="BDF")`` and a sparse (tridiagonal)
 Jacobian pattern (``jac_sparsity``), timed around the solve only. It measures the error in the
 mean moisture ratio against the same exact values as dampfront's bench (Crank's series for P1,
 P2 and P4, a very fine dampfront run for P3), finds for each side the cheapest setting (cells
@@ -71,7 +72,12 @@ class Discretisation:
         self.areas = areas
         self.volumes = volumes
         self.distance = np.diff(c)  # between neighbouring centres
-        self.half = c[0] - faces[0]  # from the exposed face to the first centre
+        # The exposed face's second-order gradient (dampfront's solver::problem::SurfaceGradient):
+        # the parabola through the surface value and the first two centres, h1 < h2 from the face.
+        h1, h2 = c[0] - faces[0], c[1] - faces[0]
+        span = h2 * h2 - h1 * h1
+        self.weights = (h2 * h2 / span, -h1 * h1 / span)
+        self.half = h1 * h2 / (h1 + h2)
         self.d_ref = p["d_ref"]
         self.b = p["moisture_coef"]
         self.x_eq = p["x_eq"]
@@ -83,9 +89,18 @@ class Discretisation:
     def d(self, x):
         return self.d_ref * np.exp(self.b * x)
 
+    def extrapolated(self, x):
+        """X* = w1 X_1 + w2 X_2, its correction limited to half the cell value as dampfront's."""
+        correction = self.weights[1] * (x[1] - x[0])
+        limit = 0.5 * abs(x[0])
+        if abs(correction) > limit:
+            correction = np.copysign(limit, correction)
+        return x[0] + correction
+
     def surface_outflow(self, xc):
-        """Outflow through face A per unit density: conduction over the half cell, balanced
-        against the surface law (Newton on the scalar balance for a moisture-dependent D)."""
+        """Outflow through face A per unit density from the extrapolated value `xc`: conduction
+        over `half`, balanced against the surface law (Newton on the scalar balance for a
+        moisture-dependent D)."""
         if self.fixed:
             xs = self.x_eq
         else:
@@ -111,7 +126,7 @@ class Discretisation:
         flux = np.zeros(self.n + 1)  # towards +s at each face, per unit density
         xm = 0.5 * (x[:-1] + x[1:])
         flux[1:-1] = self.d(xm) * (x[:-1] - x[1:]) / self.distance
-        flux[0] = -self.surface_outflow(x[0])
+        flux[0] = -self.surface_outflow(self.extrapolated(x))
         a = self.areas * flux
         return (a[:-1] - a[1:]) / self.volumes
 

@@ -39,6 +39,10 @@ impl Diffusivity {
     /// the temperature term is skipped, so any temperature is accepted.
     #[inline]
     pub fn at(&self, x: f64, t_c: f64) -> f64 {
+        // The common constant case skips the exponential (it is most of a face's cost).
+        if self.moisture_coef == 0.0 && self.activation_energy_j_mol == 0.0 {
+            return self.d_ref;
+        }
         let mut exponent = self.moisture_coef * (x - self.x_ref);
         if self.activation_energy_j_mol != 0.0 {
             let inv_t = 1.0 / (t_c + ZERO_CELSIUS_K);
@@ -56,6 +60,13 @@ impl Diffusivity {
         } else {
             self.moisture_coef * self.at(x, t_c)
         }
+    }
+
+    /// D and ∂D/∂X together, from one exponential: (D, b D).
+    #[inline]
+    pub fn at_with_slope_x(&self, x: f64, t_c: f64) -> (f64, f64) {
+        let d = self.at(x, t_c);
+        (d, self.moisture_coef * d)
     }
 
     /// ∂D/∂T = D Ea / (R T²), m2/s per K.

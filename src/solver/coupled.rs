@@ -164,8 +164,7 @@ fn same_material(
     (xr, tr): (f64, f64),
 ) -> (f64, f64, [[f64; 4]; 2]) {
     let (xm, tm) = (0.5 * (xl + xr), 0.5 * (tl + tr));
-    let d = m.diffusivity.at(xm, tm);
-    let dx = m.diffusivity.slope_x(xm, tm);
+    let (d, dx) = m.diffusivity.at_with_slope_x(xm, tm);
     let dt = m.diffusivity.slope_t(xm, tm);
     let g = m.density / distance;
     let diff = xl - xr;
@@ -323,7 +322,7 @@ fn solve_face_with(
     let water_at = |t_s: f64| {
         let (j, _, x_s, u) = flux::face_outflow_from(
             m,
-            site,
+            site.half_width,
             law_at(face.law, t_s),
             x_c,
             0.5 * (t_c + t_s),
@@ -397,8 +396,7 @@ fn air_side_newton(
         let c_sat_t =
             (saturated_vapour_density(t_s + et) - saturated_vapour_density(t_s - et)) / (2.0 * et);
         let (xm, tm) = (0.5 * (x_c + x_s), 0.5 * (t_c + t_s));
-        let d = m.diffusivity.at(xm, tm);
-        let d_x = m.diffusivity.slope_x(xm, tm);
+        let (d, d_x) = m.diffusivity.at_with_slope_x(xm, tm);
         let d_t = m.diffusivity.slope_t(xm, tm);
         let diff = x_c - x_s;
         let cond = g * d * diff;

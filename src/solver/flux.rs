@@ -6,7 +6,7 @@
 //! left and on its right; a stage's residual and its tridiagonal Jacobian are assembled from
 //! those.
 
-use super::problem::{FaceLaw, FaceSite, InnerFace, MaterialProps, Problem};
+use super::problem::{FaceLaw, InnerFace, MaterialProps, Problem};
 use super::tridiag;
 use super::workspace::Workspace;
 
@@ -50,8 +50,7 @@ impl Surfaces {
 /// Flux across a face inside one material, and its derivatives (left, right).
 fn same_material(m: &MaterialProps, distance: f64, xl: f64, xr: f64, t_c: f64) -> [f64; 3] {
     let xm = 0.5 * (xl + xr);
-    let d = m.diffusivity.at(xm, t_c);
-    let dd = m.diffusivity.slope_x(xm, t_c);
+    let (d, dd) = m.diffusivity.at_with_slope_x(xm, t_c);
     let g = m.density / distance;
     let diff = xl - xr;
     [
@@ -179,12 +178,12 @@ pub fn bracketed_root(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64, tol: f64
 /// face law.
 pub fn face_outflow(
     m: &MaterialProps,
-    site: &FaceSite,
+    reach: f64,
     law: FaceLaw,
     xc: f64,
     t_c: f64,
 ) -> (f64, f64, f64) {
-    let (j, dj, xs, _) = face_outflow_from(m, site, law, xc, t_c, f64::NAN);
+    let (j, dj, xs, _) = face_outflow_from(m, reach, law, xc, t_c, f64::NAN);
     (j, dj, xs)
 }
 
@@ -205,18 +204,17 @@ pub fn face_outflow(
 /// start only speeds things up. Derivatives follow from the implicit-function theorem.
 pub fn face_outflow_from(
     m: &MaterialProps,
-    site: &FaceSite,
+    reach: f64,
     law: FaceLaw,
     xc: f64,
     t_c: f64,
     guess: f64,
 ) -> (f64, f64, f64, f64) {
-    let g = m.density / site.half_width;
+    let g = m.density / reach;
     // Conduction over the half cell towards the surface, and its partial derivatives.
     let conduction = |xs: f64| {
         let xm = 0.5 * (xc + xs);
-        let d = m.diffusivity.at(xm, t_c);
-        let dd = m.diffusivity.slope_x(xm, t_c);
+        let (d, dd) = m.diffusivity.at_with_slope_x(xm, t_c);
         let diff = xc - xs;
         (
             g * d * diff,
@@ -483,24 +481,29 @@ pub fn evaluate_faces_with(
     ws.d_right[0] = 0.0;
     ws.d_left[n] = 0.0;
     ws.d_right[n] = 0.0;
+    ws.face_far = [0.0; 2];
     if let Some(site) = &problem.face_a {
         let m = &problem.materials[site.material];
+        let (xv, w1, w2) = site.gradient.extrapolate(x, site.cell);
         let (j, dj, xs, u) =
-            face_outflow_from(m, site, laws.a, x[site.cell], t_c, ws.face_guess[0]);
+            face_outflow_from(m, site.gradient.reach, laws.a, xv, t_c, ws.face_guess[0]);
         ws.face_guess[0] = u;
         // Outflow at face A runs towards -s.
         ws.flux[0] = -j;
-        ws.d_right[0] = -dj;
+        ws.d_right[0] = -dj * w1;
+        ws.face_far[0] = -dj * w2;
         s.out_a = j;
         s.x_a = xs;
     }
     if let Some(site) = &problem.face_b {
         let m = &problem.materials[site.material];
+        let (xv, w1, w2) = site.gradient.extrapolate(x, site.cell);
         let (j, dj, xs, u) =
-            face_outflow_from(m, site, laws.b, x[site.cell], t_c, ws.face_guess[1]);
+            face_outflow_from(m, site.gradient.reach, laws.b, xv, t_c, ws.face_guess[1]);
         ws.face_guess[1] = u;
         ws.flux[n] = j;
-        ws.d_left[n] = dj;
+        ws.d_left[n] = dj * w1;
+        ws.face_far[1] = dj * w2;
         s.out_b = j;
         s.x_b = xs;
     }
@@ -527,8 +530,9 @@ pub fn exposed_surfaces(
     for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
         if let Some(site) = site {
             let m = &problem.materials[site.material];
+            let (xv, _, _) = site.gradient.extrapolate(x, site.cell);
             let (j, _, xs, u) =
-                face_outflow_from(m, site, law, x[site.cell], t_c, ws.face_guess[side]);
+                face_outflow_from(m, site.gradient.reach, law, xv, t_c, ws.face_guess[side]);
             ws.face_guess[side] = u;
             if side == 0 {
                 (s.out_a, s.x_a) = (j, xs);
@@ -701,6 +705,7 @@ pub fn solve_stage(
                 mass[i] - c_dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
             ws.upper[i] = c_dt * areas[i + 1] * ws.d_right[i + 1];
         }
+        add_far_face_terms(ws, areas, c_dt);
         if !tridiag::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
             return Err(NewtonFailure::Breakdown);
         }
@@ -720,6 +725,18 @@ pub fn solve_stage(
     }
     ws.jacobian_valid = false;
     Err(NewtonFailure::NotConverged)
+}
+
+/// The exposed faces' dependence on the second cell in (their second-order gradient, see
+/// [`crate::solver::problem::SurfaceGradient`]): face A's outflow enters cell 0's row at cell
+/// 1, face B's cell n-1's row at cell n-2. Both stay within the tridiagonal band.
+fn add_far_face_terms(ws: &mut Workspace, areas: &[f64], c_dt: f64) {
+    let n = ws.diag.len();
+    if n < 2 {
+        return;
+    }
+    ws.upper[0] -= c_dt * areas[0] * ws.face_far[0];
+    ws.lower[n - 1] += c_dt * areas[n] * ws.face_far[1];
 }
 
 /// Solves `v` in place with the matrix of the last Newton update (`m - c_dt J`): turns an error

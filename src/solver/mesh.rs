@@ -22,12 +22,14 @@ pub const GRADING_RATIO: f64 = 8.0;
 /// surface, which needs the finest cells there; a small-Biot face keeps the profile nearly flat
 /// near the surface (the resistance is outside), where uniform cells resolve the interior best.
 ///
-/// The constants were chosen by measuring the largest error in mean moisture ratio over a run
-/// against Crank's series (slab and sphere with a fixed surface, slab at Biot 2) and a fine run
-/// (D rising exponentially with moisture, Biot 1-5): with 20 cells, ratios 2-16 towards a fixed
-/// surface gave 5.8e-4 (4) to 1.6e-3 (32) on the slab and 9e-4 (8-16) to 2e-3 (2) on the
-/// sphere, so 8 serves both; at Biot 1-5 every ratio from 1 to 8 gave the same 1.3-1.7e-4 (the
-/// time error), so grading is dropped there smoothly: ratio 3 at Biot 2, 1.14 at Biot 0.1.
+/// The constants were chosen by measuring, with the second-order surface gradient
+/// ([`crate::solver::problem::SurfaceGradient`]) and 40 cells, the error in mean moisture ratio
+/// of a slab against Crank's series at times D t / L² from 1e-4 to 1 (the early times a fine
+/// output schedule shows as well as the late ones): at Biot 0.5-5 uniform cells are best
+/// (1.5e-5 at Biot 5; ratio 8 gives 1.2e-4, the coarse centre then dominating late in the run);
+/// at Biot 20 ratio 2 (5.5e-5); at Biot 100 and on a fixed surface ratio 4-8 (1.6-1.9e-4;
+/// uniform cells give 9e-4 to 2.7e-3 at D t / L² = 1e-4, where the boundary layer is thinner
+/// than a cell). So: ratio 1.3 at Biot 5, 2.2 at Biot 20, 4.5 at Biot 100, 8 on a fixed surface.
 pub fn grading_for_biot(biot: f64) -> f64 {
     if biot.is_nan() || biot <= 0.0 {
         return 1.0;
@@ -42,7 +44,7 @@ pub fn grading_for_biot(biot: f64) -> f64 {
 pub const MAX_FACE_RATIO: f64 = 8.0;
 
 /// The Biot number at which the grading ratio is half way between 1 and [`MAX_FACE_RATIO`].
-pub const HALF_BIOT: f64 = 5.0;
+pub const HALF_BIOT: f64 = 100.0;
 
 /// The mesh of one body.
 #[derive(Debug, Clone)]

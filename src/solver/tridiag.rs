@@ -17,23 +17,25 @@ pub fn solve_in_place(
     if n == 0 {
         return true;
     }
-    let mut pivot = diag[0];
-    if pivot == 0.0 || !pivot.is_finite() {
+    // One division per row: the reciprocal pivot serves both the elimination and the solution.
+    let mut inverse = 1.0 / diag[0];
+    if !inverse.is_finite() {
         return false;
     }
-    rhs[0] /= pivot;
+    rhs[0] *= inverse;
     for i in 1..n {
-        scratch[i] = upper[i - 1] / pivot;
-        pivot = diag[i] - lower[i] * scratch[i];
-        if pivot == 0.0 || !pivot.is_finite() {
+        scratch[i] = upper[i - 1] * inverse;
+        inverse = 1.0 / (diag[i] - lower[i] * scratch[i]);
+        if !inverse.is_finite() {
             return false;
         }
-        rhs[i] = (rhs[i] - lower[i] * rhs[i - 1]) / pivot;
+        rhs[i] = (rhs[i] - lower[i] * rhs[i - 1]) * inverse;
     }
     for i in (0..n - 1).rev() {
         rhs[i] -= scratch[i + 1] * rhs[i + 1];
     }
-    rhs.iter().all(|v| v.is_finite())
+    // A sum is finite only when every term is (and vectorises, unlike a test per value).
+    rhs.iter().sum::<f64>().is_finite()
 }
 
 #[cfg(test)]

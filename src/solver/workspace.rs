@@ -34,6 +34,8 @@ pub struct Workspace {
     pub jacobian_evaluations: u64,
     /// The last solved unknown of each exposed face (A, B), to start the next solve from.
     pub face_guess: [f64; 2],
+    /// d flux / d (second cell in) at faces A and B (their second-order gradient).
+    pub face_far: [f64; 2],
 }
 
 impl Workspace {
@@ -55,6 +57,7 @@ impl Workspace {
             linear_solves: 0,
             jacobian_evaluations: 0,
             face_guess: [f64::NAN; 2],
+            face_far: [0.0; 2],
         }
     }
 }
