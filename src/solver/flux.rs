@@ -7,14 +7,13 @@
 //! those.
 
 use super::problem::{FaceLaw, InnerFace, MaterialProps, Problem};
-use super::tridiag;
 use super::workspace::Workspace;
 
 /// Maximum Newton iterations per stage solve before the step is rejected.
 pub const MAX_NEWTON: usize = 25;
 
 /// Conditions at the two exposed faces during one solve.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FaceLaws {
     /// Law at face A.
     pub a: FaceLaw,
@@ -484,7 +483,9 @@ pub fn evaluate_faces_with(
     ws.face_far = [0.0; 2];
     if let Some(site) = &problem.face_a {
         let m = &problem.materials[site.material];
-        let (xv, w1, w2) = site.gradient.extrapolate(x, site.cell);
+        let (xv, w1, w2) = site
+            .gradient
+            .extrapolate(x, site.cell, laws.a.uses_isotherm());
         let (j, dj, xs, u) =
             face_outflow_from(m, site.gradient.reach, laws.a, xv, t_c, ws.face_guess[0]);
         ws.face_guess[0] = u;
@@ -497,7 +498,9 @@ pub fn evaluate_faces_with(
     }
     if let Some(site) = &problem.face_b {
         let m = &problem.materials[site.material];
-        let (xv, w1, w2) = site.gradient.extrapolate(x, site.cell);
+        let (xv, w1, w2) = site
+            .gradient
+            .extrapolate(x, site.cell, laws.b.uses_isotherm());
         let (j, dj, xs, u) =
             face_outflow_from(m, site.gradient.reach, laws.b, xv, t_c, ws.face_guess[1]);
         ws.face_guess[1] = u;
@@ -530,7 +533,7 @@ pub fn exposed_surfaces(
     for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
         if let Some(site) = site {
             let m = &problem.materials[site.material];
-            let (xv, _, _) = site.gradient.extrapolate(x, site.cell);
+            let (xv, _, _) = site.gradient.extrapolate(x, site.cell, law.uses_isotherm());
             let (j, _, xs, u) =
                 face_outflow_from(m, site.gradient.reach, law, xv, t_c, ws.face_guess[side]);
             ws.face_guess[side] = u;
@@ -699,14 +702,25 @@ pub fn solve_stage(
         }
         previous = worst;
         backtracks = 0;
-        for i in 0..n {
-            ws.lower[i] = -c_dt * areas[i] * ws.d_left[i];
-            ws.diag[i] =
-                mass[i] - c_dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
-            ws.upper[i] = c_dt * areas[i + 1] * ws.d_right[i + 1];
+        // A linear problem's matrix stays the same while c dt, the temperature and the face
+        // laws do (both stages of a step share c dt, and the controller keeps the step size
+        // within its dead zone): its elimination is reused.
+        let key = (c_dt, t_c, *laws);
+        if !(settings.linear && ws.factored_for == Some(key)) {
+            for i in 0..n {
+                ws.lower[i] = -c_dt * areas[i] * ws.d_left[i];
+                ws.diag[i] =
+                    mass[i] - c_dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
+                ws.upper[i] = c_dt * areas[i + 1] * ws.d_right[i + 1];
+            }
+            add_far_face_terms(ws, areas, c_dt);
+            if !ws.factors.factor(&ws.lower, &ws.diag, &ws.upper) {
+                ws.factored_for = None;
+                return Err(NewtonFailure::Breakdown);
+            }
+            ws.factored_for = settings.linear.then_some(key);
         }
-        add_far_face_terms(ws, areas, c_dt);
-        if !tridiag::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
+        if !ws.factors.solve(&ws.lower, &mut ws.rhs) {
             return Err(NewtonFailure::Breakdown);
         }
         ws.linear_solves += 1;
@@ -743,5 +757,5 @@ fn add_far_face_terms(ws: &mut Workspace, areas: &[f64], c_dt: f64) {
 /// in water held (kg per unit normalised area per cell) into a moisture error, damping the stiff
 /// components as the implicit stages do.
 pub fn filter(ws: &mut Workspace, v: &mut [f64]) -> bool {
-    tridiag::solve_in_place(&ws.lower, &ws.diag, &ws.upper, v, &mut ws.scratch)
+    ws.factors.solve(&ws.lower, v)
 }

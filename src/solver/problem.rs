@@ -96,6 +96,13 @@ pub enum FaceLaw {
     },
 }
 
+impl FaceLaw {
+    /// Whether the law evaluates the isotherm (so its cell value must stay in its domain).
+    pub fn uses_isotherm(&self) -> bool {
+        matches!(self, FaceLaw::AirSide { .. })
+    }
+}
+
 /// An exposed face's fixed geometry.
 #[derive(Debug, Clone, Copy)]
 pub struct FaceSite {
@@ -161,15 +168,16 @@ impl SurfaceGradient {
 
     /// X* and its derivatives by the face's cell and by `inner`.
     ///
-    /// The extrapolation is limited to half the cell value either way, so a steep front next
-    /// to the face cannot give a negative or absurd X* (where the limit holds, X* follows the
-    /// cell alone).
+    /// With `limited`, the extrapolation is held to half the cell value either way, so a steep
+    /// front next to the face cannot give a negative or absurd X* (where the limit holds, X*
+    /// follows the cell alone). Laws that evaluate the isotherm need that; fixed and
+    /// content-based laws take any X* and stay linear without it.
     #[inline]
-    pub fn extrapolate(&self, x: &[f64], cell: usize) -> (f64, f64, f64) {
+    pub fn extrapolate(&self, x: &[f64], cell: usize, limited: bool) -> (f64, f64, f64) {
         let (xc, xi) = (x[cell], x[self.inner]);
         let [w1, w2] = self.weights;
         let correction = w2 * (xi - xc);
-        if correction.abs() <= 0.5 * xc.abs() {
+        if !limited || correction.abs() <= 0.5 * xc.abs() {
             (xc + correction, w1, w2)
         } else {
             // X* = xc (1 + s), s = ±1/2 towards the correction.
@@ -784,7 +792,7 @@ mod tests {
         let p = |s: f64| 0.3 + 0.5 * s - 2.0 * s * s;
         let (h1, h2) = (0.013, 0.041);
         let g = SurfaceGradient::new(1, h1, h2);
-        let (xv, w1, w2) = g.extrapolate(&[p(h1), p(h2)], 0);
+        let (xv, w1, w2) = g.extrapolate(&[p(h1), p(h2)], 0, true);
         assert_eq!((w1, w2), (g.weights[0], g.weights[1]));
         let slope = (xv - p(0.0)) / g.reach;
         assert!((slope - 0.5).abs() < 1e-12, "slope {slope}");
@@ -795,11 +803,14 @@ mod tests {
         // A very dry face cell beside a wet one would extrapolate below zero; X* stops at half
         // the cell value and then follows the cell alone.
         let g = SurfaceGradient::new(1, 0.5, 1.5);
-        let (xv, w1, w2) = g.extrapolate(&[0.05, 0.8], 0);
+        let (xv, w1, w2) = g.extrapolate(&[0.05, 0.8], 0, true);
         assert!((xv - 0.025).abs() < 1e-15);
         assert_eq!((w1, w2), (0.5, 0.0));
+        // Unlimited (fixed and content-based laws), the parabola's value stands.
+        let (xv, _, _) = g.extrapolate(&[0.05, 0.8], 0, false);
+        assert!((xv - (0.05 - 0.75 / 8.0)).abs() < 1e-15);
         // One cell of the face's material: the half cell.
         let h = SurfaceGradient::half_cell(0, 0.1);
-        assert_eq!(h.extrapolate(&[0.4], 0), (0.4, 1.0, 0.0));
+        assert_eq!(h.extrapolate(&[0.4], 0, true), (0.4, 1.0, 0.0));
     }
 }

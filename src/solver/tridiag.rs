@@ -1,41 +1,69 @@
-//! Tridiagonal linear solve (Thomas algorithm), in place, O(n), no allocation.
+//! Tridiagonal linear solve (Thomas algorithm): O(n), the factors kept for reuse, no allocation.
 
-/// Solves `lower[i] x[i-1] + diag[i] x[i] + upper[i] x[i+1] = rhs[i]`, writing x into `rhs`.
-///
-/// `lower[0]` and `upper[n-1]` are ignored. `scratch` must have the same length. The matrices
-/// assembled by the solver are diagonally dominant M-matrices (diffusion plus a positive
-/// accumulation term), for which the algorithm is stable without pivoting. Returns `false`
-/// when a pivot vanishes or the result is not finite.
-pub fn solve_in_place(
-    lower: &[f64],
-    diag: &[f64],
-    upper: &[f64],
-    rhs: &mut [f64],
-    scratch: &mut [f64],
-) -> bool {
-    let n = rhs.len();
-    if n == 0 {
-        return true;
+/// The elimination (Thomas algorithm) of a tridiagonal matrix
+/// `lower[i] x[i-1] + diag[i] x[i] + upper[i] x[i+1]` (`lower[0]` and `upper[n-1]` ignored),
+/// kept so that several right-hand sides (a Newton update, the error estimate, the stages and
+/// later steps of a linear problem) share it. The matrices assembled by the solver are
+/// diagonally dominant M-matrices (diffusion plus a positive accumulation term), for which the
+/// algorithm is stable without pivoting.
+#[derive(Debug, Clone)]
+pub struct Factors {
+    /// The upper diagonal after elimination, `upper[i-1] / pivot[i-1]` at i (0 at 0).
+    eliminated: Vec<f64>,
+    /// The reciprocal pivots.
+    inverse: Vec<f64>,
+}
+
+impl Factors {
+    /// Room for `n` rows.
+    pub fn new(n: usize) -> Factors {
+        Factors {
+            eliminated: vec![0.0; n],
+            inverse: vec![0.0; n],
+        }
     }
-    // One division per row: the reciprocal pivot serves both the elimination and the solution.
-    let mut inverse = 1.0 / diag[0];
-    if !inverse.is_finite() {
-        return false;
-    }
-    rhs[0] *= inverse;
-    for i in 1..n {
-        scratch[i] = upper[i - 1] * inverse;
-        inverse = 1.0 / (diag[i] - lower[i] * scratch[i]);
+
+    /// Eliminates the matrix. One division per row.
+    /// Returns `false` when a pivot vanishes or is not finite.
+    pub fn factor(&mut self, lower: &[f64], diag: &[f64], upper: &[f64]) -> bool {
+        let n = self.inverse.len();
+        if n == 0 {
+            return true;
+        }
+        let mut inverse = 1.0 / diag[0];
         if !inverse.is_finite() {
             return false;
         }
-        rhs[i] = (rhs[i] - lower[i] * rhs[i - 1]) * inverse;
+        self.inverse[0] = inverse;
+        for i in 1..n {
+            let e = upper[i - 1] * inverse;
+            self.eliminated[i] = e;
+            inverse = 1.0 / (diag[i] - lower[i] * e);
+            if !inverse.is_finite() {
+                return false;
+            }
+            self.inverse[i] = inverse;
+        }
+        true
     }
-    for i in (0..n - 1).rev() {
-        rhs[i] -= scratch[i + 1] * rhs[i + 1];
+
+    /// Solves in place with the factored matrix (`lower` as given to [`Factors::factor`]).
+    /// Returns `false` when the result is not finite.
+    pub fn solve(&self, lower: &[f64], rhs: &mut [f64]) -> bool {
+        let n = rhs.len();
+        if n == 0 {
+            return true;
+        }
+        rhs[0] *= self.inverse[0];
+        for i in 1..n {
+            rhs[i] = (rhs[i] - lower[i] * rhs[i - 1]) * self.inverse[i];
+        }
+        for i in (0..n - 1).rev() {
+            rhs[i] -= self.eliminated[i + 1] * rhs[i + 1];
+        }
+        // A sum is finite only when every term is (and vectorises, unlike a test per value).
+        rhs.iter().sum::<f64>().is_finite()
     }
-    // A sum is finite only when every term is (and vectorises, unlike a test per value).
-    rhs.iter().sum::<f64>().is_finite()
 }
 
 #[cfg(test)]
@@ -55,8 +83,9 @@ mod tests {
             -x[1] + 4.0 * x[2] - x[3],
             -x[2] + 4.0 * x[3],
         ];
-        let mut scratch = [0.0; 4];
-        assert!(solve_in_place(&lower, &diag, &upper, &mut b, &mut scratch));
+        let mut factors = Factors::new(4);
+        assert!(factors.factor(&lower, &diag, &upper));
+        assert!(factors.solve(&lower, &mut b));
         for (a, e) in b.iter().zip(x) {
             assert!((a - e).abs() < 1e-14);
         }
@@ -64,14 +93,6 @@ mod tests {
 
     #[test]
     fn reports_a_zero_pivot() {
-        let mut b = [1.0, 1.0];
-        let mut s = [0.0; 2];
-        assert!(!solve_in_place(
-            &[0.0, 1.0],
-            &[0.0, 1.0],
-            &[1.0, 0.0],
-            &mut b,
-            &mut s
-        ));
+        assert!(!Factors::new(2).factor(&[0.0, 1.0], &[0.0, 1.0], &[1.0, 0.0]));
     }
 }

@@ -1,6 +1,13 @@
 //! Buffers the solver writes into, sized once from the mesh so that the inner loop never
 //! allocates.
 
+use super::flux::FaceLaws;
+use super::tridiag::Factors;
+
+/// What a linear problem's factored matrix depends on: (stage coefficient c dt, temperature,
+/// face laws).
+pub type FactorKey = (f64, f64, FaceLaws);
+
 /// Scratch arrays for face fluxes and the tridiagonal system.
 #[derive(Debug, Clone)]
 pub struct Workspace {
@@ -18,8 +25,11 @@ pub struct Workspace {
     pub upper: Vec<f64>,
     /// Right-hand side, then solution, n.
     pub rhs: Vec<f64>,
-    /// Thomas algorithm scratch, n.
-    pub scratch: Vec<f64>,
+    /// The factored matrix of the last Newton update.
+    pub factors: Factors,
+    /// What the factors were built for, when they may be reused: a linear problem's matrix
+    /// depends only on the stage coefficient, the temperature and the face laws.
+    pub factored_for: Option<FactorKey>,
     /// The last Newton update, n (kept for backtracking).
     pub delta: Vec<f64>,
     /// Net water inflow of each cell at the last evaluation, n.
@@ -49,7 +59,8 @@ impl Workspace {
             diag: vec![0.0; n],
             upper: vec![0.0; n],
             rhs: vec![0.0; n],
-            scratch: vec![0.0; n],
+            factors: Factors::new(n),
+            factored_for: None,
             delta: vec![0.0; n],
             inflow: vec![0.0; n],
             jacobian_valid: false,
