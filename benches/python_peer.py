@@ -43,7 +43,7 @@ from scipy.sparse import diags
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
 TARGETS = [1e-4, 1e-5]
-RTOLS = [1e-3, 1e-4, 1e-5, 1e-6, 1e-7, 1e-8]
+RTOLS = [1e-3, 3e-4, 1e-4, 3e-5, 1e-5, 3e-6, 1e-6, 3e-7, 1e-7, 3e-8, 1e-8]
 
 
 class Discretisation:

@@ -357,8 +357,10 @@ fn newton_in_bracket(f: impl Fn(f64) -> (f64, f64), mut lo: f64, mut hi: f64, gu
         }
         let step = (next - x).abs();
         x = next;
-        let size = 1e-14 * (1.0 + x.abs());
-        if step <= size || hi - lo <= size {
+        let scale = 1.0 + x.abs();
+        // Newton converges quadratically: after a Newton step below 1e-8 the error left is of
+        // order its square, below round-off, so no further evaluation is needed.
+        if step <= 1e-14 * scale || hi - lo <= 1e-14 * scale || (usable && step <= 1e-8 * scale) {
             return x;
         }
     }
