@@ -106,6 +106,9 @@ pub struct CoupledWorkspace {
     pub jacobian_evaluations: u64,
     /// The last solved (surface temperature, water-side unknown) of faces A and B.
     pub face_guess: [[f64; 2]; 2],
+    /// d (water, energy) flux / d (X, T) of the second cell in, at faces A and B, as a block
+    /// (their second-order gradient).
+    pub face_far: [Block; 2],
 }
 
 impl CoupledWorkspace {
@@ -127,6 +130,7 @@ impl CoupledWorkspace {
             linear_solves: 0,
             jacobian_evaluations: 0,
             face_guess: [[f64::NAN; 2]; 2],
+            face_far: [[0.0; 4]; 2],
         }
     }
 }
@@ -690,6 +694,7 @@ pub fn evaluate_faces_with(
         ws.energy[k] = 0.0;
         ws.deriv[k] = [[0.0; 4]; 2];
     }
+    ws.face_far = [[0.0; 4]; 2];
     let mut out = CoupledSurfaces::default();
     for (side, site, heat) in [
         (0, &problem.face_a, &faces.a),
@@ -698,35 +703,55 @@ pub fn evaluate_faces_with(
         let Some(site) = site else { continue };
         let m = &problem.materials[site.material];
         let kc = thermal.conductivity[site.material];
+        // The face sees the values extrapolated to second order (`SurfaceGradient`), moisture
+        // and temperature alike, at the gradient's reach; its derivatives by them spread over
+        // the face's cell and the next one in.
+        let g = &site.gradient;
+        let (xv, wx1, wx2) = g.extrapolate(x, site.cell, heat.law.uses_isotherm());
+        let (tv, wt1, wt2) = g.extrapolate(t, site.cell, false);
+        let at_reach = FaceSite {
+            half_width: g.reach,
+            ..*site
+        };
         let (s, guess) = solve_face_with(
             m,
             kc,
-            site,
+            &at_reach,
             heat,
-            (x[site.cell], t[site.cell]),
+            (xv, tv),
             scale,
             true,
             ws.face_guess[side],
         );
         ws.face_guess[side] = guess;
         // Face fluxes run towards +s. At face A (k = 0) water out runs towards -s and energy in
-        // towards +s; at face B (k = n) the other way round. Each depends only on the cell
-        // beside the face: to its right at A (the block's second pair), to its left at B.
+        // towards +s; at face B (k = n) the other way round. The cell beside the face is to its
+        // right at A (the block's second pair), to its left at B.
         let sign = if side == 0 { -1.0 } else { 1.0 };
         let water = [sign * s.d_outflow[0], sign * s.d_outflow[1]];
         let energy = [-sign * s.d_energy[0], -sign * s.d_energy[1]];
         let k = if side == 0 { 0 } else { n };
         ws.water[k] = sign * s.outflow;
         ws.energy[k] = -sign * s.energy_in;
+        let near = [
+            [water[0] * wx1, water[1] * wt1],
+            [energy[0] * wx1, energy[1] * wt1],
+        ];
+        ws.face_far[side] = [
+            water[0] * wx2,
+            water[1] * wt2,
+            energy[0] * wx2,
+            energy[1] * wt2,
+        ];
         ws.deriv[k] = if side == 0 {
             [
-                [0.0, 0.0, water[0], water[1]],
-                [0.0, 0.0, energy[0], energy[1]],
+                [0.0, 0.0, near[0][0], near[0][1]],
+                [0.0, 0.0, near[1][0], near[1][1]],
             ]
         } else {
             [
-                [water[0], water[1], 0.0, 0.0],
-                [energy[0], energy[1], 0.0, 0.0],
+                [near[0][0], near[0][1], 0.0, 0.0],
+                [near[1][0], near[1][1], 0.0, 0.0],
             ]
         };
         if side == 0 {
@@ -844,6 +869,16 @@ pub fn solve_stage(
                 c_dt * areas[i + 1] * right[1][2],
                 c_dt * areas[i + 1] * right[1][3],
             ];
+        }
+        // The exposed faces' dependence on the second cell in: face A's fluxes enter cell 0's
+        // row at cell 1, face B's cell n-1's row at cell n-2 (within the block band).
+        if n >= 2 {
+            for (b, far) in ws.face_far[0].iter().enumerate() {
+                ws.upper[0][b] -= c_dt * areas[0] * far;
+            }
+            for (b, far) in ws.face_far[1].iter().enumerate() {
+                ws.lower[n - 1][b] += c_dt * areas[n] * far;
+            }
         }
         if !blocktri::solve_in_place(&ws.lower, &ws.diag, &ws.upper, &mut ws.rhs, &mut ws.scratch) {
             return Err(NewtonFailure::Breakdown);
