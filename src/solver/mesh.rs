@@ -7,43 +7,53 @@
 
 use std::ops::Range;
 
-/// Ratio of the largest to the smallest cell in a layer graded towards a material boundary, and
-/// the default towards an exposed face ([`grading_for_biot`] sets the latter from the face's
-/// Biot number). Steep gradients sit there early in a run; ratio 8 over 40 cells (about 5.5 %
-/// growth per cell) keeps the mesh smooth enough for second-order accuracy.
+/// Ratio of the largest to the smallest cell in a layer graded towards a material boundary
+/// (towards an exposed face, [`grading_for_biot`] sets it). Steep gradients sit there early in a
+/// run; ratio 8 over 40 cells (about 5.5 % growth per cell) keeps the mesh smooth enough for
+/// second-order accuracy.
 pub const GRADING_RATIO: f64 = 8.0;
 
 /// The grading ratio towards an exposed face of surface Biot number `biot` (external over
-/// internal conductance; infinite for a fixed surface):
+/// internal conductance; infinite for a fixed surface) on a body of geometry index `m` (0 slab,
+/// 1 cylinder, 2 sphere):
 ///
-///   ratio = 1 + (MAX_FACE_RATIO - 1) * biot / (biot + HALF_BIOT)
+///   ratio = 1 + (max_face_ratio(m) - 1) * biot / (biot + HALF_BIOT)
 ///
 /// A fixed surface (biot -> inf) starts with a boundary layer of width sqrt(D t) against the
 /// surface, which needs the finest cells there; a small-Biot face keeps the profile nearly flat
 /// near the surface (the resistance is outside), where uniform cells resolve the interior best.
 ///
 /// The constants were chosen by measuring, with the second-order surface gradient
-/// ([`crate::solver::problem::SurfaceGradient`]) and 40 cells, the error in mean moisture ratio
-/// of a slab against Crank's series at times D t / L² from 1e-4 to 1 (the early times a fine
-/// output schedule shows as well as the late ones): at Biot 0.5-5 uniform cells are best
-/// (1.5e-5 at Biot 5; ratio 8 gives 1.2e-4, the coarse centre then dominating late in the run);
-/// at Biot 20 ratio 2 (5.5e-5); at Biot 100 and on a fixed surface ratio 4-8 (1.6-1.9e-4;
-/// uniform cells give 9e-4 to 2.7e-3 at D t / L² = 1e-4, where the boundary layer is thinner
-/// than a cell). So: ratio 1.3 at Biot 5, 2.2 at Biot 20, 4.5 at Biot 100, 8 on a fixed surface.
-pub fn grading_for_biot(biot: f64) -> f64 {
+/// ([`crate::solver::problem::SurfaceGradient`]) and 40 cells, the largest error in mean moisture
+/// ratio against Crank's series at times D t / L² from 1e-4 to 1 (the early times a fine output
+/// schedule shows as well as the late ones). Fixed surface: the slab is best at ratio 5 (1.3e-4;
+/// ratio 3 gives 4.3e-4 at D t / L² = 1e-4, where the boundary layer is thinner than a cell, and
+/// ratio 8 1.8e-4 late in the run, where the coarse centre dominates), the cylinder at 6
+/// (1.5e-4) and the sphere at 8 (1.8e-4; its surface weighs three times a slab's in the mean).
+/// Slab at a finite Biot number: uniform cells are best at Biot 0.5-5 (1.5e-5 at Biot 5; ratio
+/// 8 gives 1.2e-4), ratio 2 at Biot 20 (5.5e-5), 4-8 at Biot 100 (1.6-1.7e-4). So HALF_BIOT
+/// 100: ratio 1.2 at Biot 5, 1.7 at Biot 20, 3 at Biot 100 on a slab.
+pub fn grading_for_biot(biot: f64, m: u32) -> f64 {
+    let max = max_face_ratio(m);
     if biot.is_nan() || biot <= 0.0 {
         return 1.0;
     }
     if biot.is_infinite() {
-        return MAX_FACE_RATIO;
+        return max;
     }
-    1.0 + (MAX_FACE_RATIO - 1.0) * biot / (biot + HALF_BIOT)
+    1.0 + (max - 1.0) * biot / (biot + HALF_BIOT)
 }
 
-/// The grading ratio towards a fixed surface.
-pub const MAX_FACE_RATIO: f64 = 8.0;
+/// The grading ratio towards a fixed surface of a slab (m = 0), cylinder (1) or sphere (2).
+pub fn max_face_ratio(m: u32) -> f64 {
+    match m {
+        0 => 5.0,
+        1 => 6.0,
+        _ => 8.0,
+    }
+}
 
-/// The Biot number at which the grading ratio is half way between 1 and [`MAX_FACE_RATIO`].
+/// The Biot number at which the grading ratio is half way between 1 and [`max_face_ratio`].
 pub const HALF_BIOT: f64 = 100.0;
 
 /// The mesh of one body.

@@ -283,7 +283,7 @@ impl Problem {
         // Exposed faces are graded by their Biot number, material boundaries by the fixed ratio.
         let face_ratio = |layer: usize| {
             let length = case.layers[layer].thickness * if mirrored { 0.5 } else { 1.0 };
-            super::mesh::grading_for_biot(surface_biot(case, layer, length))
+            super::mesh::grading_for_biot(surface_biot(case, layer, length), case.geometry.index())
         };
         let refine: Vec<Refine> = (0..n_layers)
             .map(|i| {
