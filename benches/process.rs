@@ -214,9 +214,26 @@ fn main() {
         memory_child(cells, hours);
         return;
     }
+    // `cargo bench --bench process -- batch whole` runs only the parts named (cargo passes
+    // `--bench` itself, which is not a filter).
+    let filters: Vec<&String> = args
+        .iter()
+        .skip(1)
+        .filter(|a| !a.starts_with("--"))
+        .collect();
+    let wanted =
+        |part: &str| filters.is_empty() || filters.iter().any(|f| part.contains(f.as_str()));
     let scratch = tempfile::tempdir().expect("a scratch folder");
-    whole_process(scratch.path());
-    batch(scratch.path());
-    memory();
-    scaling();
+    if wanted("whole") {
+        whole_process(scratch.path());
+    }
+    if wanted("batch") {
+        batch(scratch.path());
+    }
+    if wanted("memory") {
+        memory();
+    }
+    if wanted("scaling") {
+        scaling();
+    }
 }

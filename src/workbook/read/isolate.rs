@@ -15,6 +15,7 @@
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
+use std::sync::mpsc::RecvTimeoutError;
 use std::time::{Duration, Instant};
 
 use super::{ReadError, read_bytes};
@@ -96,9 +97,13 @@ fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadErr
         // A child that died early closes its end; that shows in its exit status.
         let _ = stdin.write_all(&input);
     });
+    // The stdout reader says when the child closed its standard output, which it does by
+    // ending: the parent waits on that instead of polling the child's status.
+    let (closed_tx, closed_rx) = std::sync::mpsc::channel::<()>();
     let out_reader = std::thread::spawn(move || {
         let mut out = Vec::new();
         let _ = stdout.read_to_end(&mut out);
+        let _ = closed_tx.send(());
         out
     });
     let err_reader = std::thread::spawn(move || {
@@ -107,20 +112,14 @@ fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadErr
         err
     });
     let deadline = Instant::now() + Duration::from_secs(READER_WALL_SECS);
-    let status = loop {
-        match child.try_wait() {
-            Ok(Some(status)) => break Some(status),
-            Ok(None) if Instant::now() >= deadline => {
-                let _ = child.kill();
-                let _ = child.wait();
-                break None;
-            }
-            Ok(None) => std::thread::sleep(Duration::from_millis(5)),
-            Err(e) => {
-                let _ = child.kill();
-                let _ = child.wait();
-                return Err(system("the reader process could not be waited for", e));
-            }
+    let status = match closed_rx.recv_timeout(deadline.saturating_duration_since(Instant::now())) {
+        // Closed (or the reader thread is gone): the child is ending; collect its status.
+        Ok(()) | Err(RecvTimeoutError::Disconnected) => wait_until(&mut child, deadline)
+            .map_err(|e| system("the reader process could not be waited for", e))?,
+        Err(RecvTimeoutError::Timeout) => {
+            let _ = child.kill();
+            let _ = child.wait();
+            None
         }
     };
     let _ = writer.join();
@@ -176,6 +175,35 @@ fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadErr
             READER_CPU_SECS
         ),
     })
+}
+
+/// The exit status of a child that has closed its output and is ending: `None` (the child
+/// killed) if it is still running at `deadline`. The status is normally there at once or
+/// within microseconds; the waits between looks start at 20 us and double up to 5 ms.
+fn wait_until(
+    child: &mut std::process::Child,
+    deadline: Instant,
+) -> std::io::Result<Option<std::process::ExitStatus>> {
+    let mut pause = Duration::from_micros(20);
+    loop {
+        match child.try_wait() {
+            Ok(Some(status)) => return Ok(Some(status)),
+            Ok(None) if Instant::now() >= deadline => {
+                let _ = child.kill();
+                let _ = child.wait();
+                return Ok(None);
+            }
+            Ok(None) => {
+                std::thread::sleep(pause);
+                pause = (pause * 2).min(Duration::from_millis(5));
+            }
+            Err(e) => {
+                let _ = child.kill();
+                let _ = child.wait();
+                return Err(e);
+            }
+        }
+    }
 }
 
 fn not_a_workbook(detail: &str) -> ReadError {
