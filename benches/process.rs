@@ -143,12 +143,15 @@ fn memory() {
 }
 
 /// Runs `dampfront ARGS` `repeats` times: (median wall s, CPU s per run of it and its children).
+/// `DAMPFRONT_BENCH_EXE` names another build of the program to time (e.g. one linked
+/// differently).
 fn run_exe(args: &[&str], dir: &Path, repeats: usize) -> (f64, f64) {
+    let exe = std::env::var_os("DAMPFRONT_BENCH_EXE").unwrap_or_else(|| EXE.into());
     let cpu0 = children_cpu_seconds();
     let mut wall: Vec<f64> = (0..repeats)
         .map(|_| {
             let t = Instant::now();
-            let out = Command::new(EXE)
+            let out = Command::new(&exe)
                 .args(args)
                 .current_dir(dir)
                 .output()
