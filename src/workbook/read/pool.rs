@@ -415,14 +415,24 @@ fn cpu_ns() -> u64 {
     0
 }
 
-/// This process's address space in bytes (`VmSize` of /proc/self/status; elsewhere 0).
+/// This process's address space in bytes (the first field of /proc/self/statm, in pages;
+/// elsewhere 0).
 fn address_space() -> u64 {
-    std::fs::read_to_string("/proc/self/status")
-        .ok()
-        .and_then(|status| {
-            let line = status.lines().find_map(|l| l.strip_prefix("VmSize:"))?;
-            let kb: u64 = line.trim().trim_end_matches("kB").trim().parse().ok()?;
-            Some(kb * 1024)
-        })
-        .unwrap_or(0)
+    #[cfg(target_os = "linux")]
+    {
+        unsafe extern "C" {
+            fn sysconf(name: i32) -> std::ffi::c_long;
+        }
+        /// _SC_PAGESIZE in glibc's and musl's bits/confname.h for Linux.
+        const SC_PAGESIZE: i32 = 30;
+        // SAFETY: sysconf reads a configuration value; it takes no pointers.
+        let page = u64::try_from(unsafe { sysconf(SC_PAGESIZE) }).unwrap_or(4096);
+        if let Some(pages) = std::fs::read_to_string("/proc/self/statm")
+            .ok()
+            .and_then(|s| s.split_whitespace().next()?.parse::<u64>().ok())
+        {
+            return pages.saturating_mul(page);
+        }
+    }
+    0
 }
