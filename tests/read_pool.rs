@@ -121,6 +121,44 @@ fn a_file_that_is_not_a_workbook_gets_its_answer_and_the_next_file_a_fresh_child
 }
 
 #[test]
+fn an_idle_child_that_was_stopped_is_replaced_before_the_next_file() {
+    let dir = scratch();
+    let books = valid_books(dir.path());
+    let pool = ReaderPool::new(EXE, 100);
+    let pooled = Isolation::Pooled(pool.clone());
+    assert!(read_with(&pooled, &books[0]).is_ok());
+    let idle = pool.idle_children();
+    assert_eq!(idle.len(), 1);
+    let killed = std::process::Command::new("kill")
+        .args(["-KILL", &idle[0].to_string()])
+        .status()
+        .unwrap();
+    assert!(killed.success());
+    // The signal ends it a moment later: wait until it is a zombie (ended, not yet reaped).
+    let stat = format!("/proc/{}/stat", idle[0]);
+    let ended = || {
+        std::fs::read_to_string(&stat)
+            .map(|s| {
+                s.rsplit_once(')')
+                    .is_some_and(|(_, r)| r.trim_start().starts_with('Z'))
+            })
+            .unwrap_or(true)
+    };
+    let started = std::time::Instant::now();
+    while !ended() && started.elapsed() < std::time::Duration::from_secs(10) {
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    }
+    assert!(ended());
+    // Not blamed on the next file: it reads in a fresh child.
+    assert_eq!(
+        read_with(&pooled, &books[1]).unwrap(),
+        read_with(&Isolation::Child { exe: EXE.into() }, &books[1]).unwrap()
+    );
+    assert_eq!(pool.children_started(), 2);
+    assert_ne!(pool.idle_children(), idle);
+}
+
+#[test]
 fn a_child_is_replaced_after_its_number_of_files() {
     let dir = scratch();
     let books = valid_books(dir.path());

@@ -102,10 +102,18 @@ impl ReaderPool {
         self.inner.started.load(Ordering::Relaxed)
     }
 
+    /// The process ids of the children waiting for a file (for monitoring and tests).
+    pub fn idle_children(&self) -> Vec<u32> {
+        self.inner
+            .idle
+            .lock()
+            .map(|idle| idle.iter().map(|s| s.child.id()).collect())
+            .unwrap_or_default()
+    }
+
     /// Reads `bytes`, a spreadsheet with extension `ext` (lower case, no dot), in a child.
     pub fn read(&self, bytes: &[u8], ext: &str) -> Result<RawBook, ReadError> {
-        let idle = self.inner.idle.lock().ok().and_then(|mut idle| idle.pop());
-        let mut server = match idle {
+        let mut server = match self.idle_server() {
             Some(server) => server,
             None => {
                 let server = Server::start(&self.inner.exe)?;
@@ -122,6 +130,17 @@ impl ReaderPool {
         }
         // Otherwise the child is dropped here, which ends it.
         result
+    }
+
+    /// An idle child that is still running. One that ended while idle (stopped by someone, or
+    /// by the system) is dropped here, so the next file is not blamed for its end.
+    fn idle_server(&self) -> Option<Server> {
+        loop {
+            let mut server = self.inner.idle.lock().ok()?.pop()?;
+            if matches!(server.child.try_wait(), Ok(None)) {
+                return Some(server);
+            }
+        }
     }
 }
 
