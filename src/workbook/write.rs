@@ -143,7 +143,12 @@ fn column_formats<'f>(
 }
 
 /// [`opt_number`] in a column that [`column_formats`] formatted.
-fn opt_plain(ws: &mut Worksheet, row: u32, col: u16, v: Option<f64>) -> Result<(), XlsxError> {
+pub(super) fn opt_plain(
+    ws: &mut Worksheet,
+    row: u32,
+    col: u16,
+    v: Option<f64>,
+) -> Result<(), XlsxError> {
     if let Some(v) = v.filter(|v| v.is_finite()) {
         ws.write_number(row, col, v)?;
     }
