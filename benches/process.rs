@@ -143,12 +143,15 @@ fn memory() {
 }
 
 /// Runs `dampfront ARGS` `repeats` times: (median wall s, CPU s per run of it and its children).
+/// `DAMPFRONT_BENCH_EXE` names another build of the program to time (e.g. one linked
+/// differently).
 fn run_exe(args: &[&str], dir: &Path, repeats: usize) -> (f64, f64) {
+    let exe = std::env::var_os("DAMPFRONT_BENCH_EXE").unwrap_or_else(|| EXE.into());
     let cpu0 = children_cpu_seconds();
     let mut wall: Vec<f64> = (0..repeats)
         .map(|_| {
             let t = Instant::now();
-            let out = Command::new(EXE)
+            let out = Command::new(&exe)
                 .args(args)
                 .current_dir(dir)
                 .output()
@@ -214,9 +217,26 @@ fn main() {
         memory_child(cells, hours);
         return;
     }
+    // `cargo bench --bench process -- batch whole` runs only the parts named (cargo passes
+    // `--bench` itself, which is not a filter).
+    let filters: Vec<&String> = args
+        .iter()
+        .skip(1)
+        .filter(|a| !a.starts_with("--"))
+        .collect();
+    let wanted =
+        |part: &str| filters.is_empty() || filters.iter().any(|f| part.contains(f.as_str()));
     let scratch = tempfile::tempdir().expect("a scratch folder");
-    whole_process(scratch.path());
-    batch(scratch.path());
-    memory();
-    scaling();
+    if wanted("whole") {
+        whole_process(scratch.path());
+    }
+    if wanted("batch") {
+        batch(scratch.path());
+    }
+    if wanted("memory") {
+        memory();
+    }
+    if wanted("scaling") {
+        scaling();
+    }
 }

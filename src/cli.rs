@@ -125,6 +125,10 @@ pub enum Command {
         /// The extension of the file the bytes came from.
         extension: String,
     },
+    /// Internal: read many spreadsheets, one per request on standard input, in a
+    /// memory-limited child process of `batch` and `watch`.
+    #[command(name = "read-cells-server", hide = true)]
+    ReadCellsServer,
 }
 
 /// How a command ended, for the exit code.
@@ -178,7 +182,16 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             csv,
             case_seconds,
             json,
-        } => solve(&files, out, csv, json, pipeline(case_seconds)?),
+        } => {
+            // One file keeps the one-shot reader child; several share a pooled one.
+            let base = pipeline(case_seconds)?;
+            let base = if files.len() > 1 {
+                base.reading_many()
+            } else {
+                base
+            };
+            solve(&files, out, csv, json, base)
+        }
         Command::Watch {
             dir,
             jobs: j,
@@ -205,7 +218,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.grace = secs(grace_secs, "--grace-secs")?;
             watch::watch(
                 &opts,
-                Arc::new(pipeline(case_seconds)?.with_jobs(opts.jobs)),
+                Arc::new(pipeline(case_seconds)?.with_jobs(opts.jobs).reading_many()),
             )?;
             Ok(Outcome::Ok)
         }
@@ -230,7 +243,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
             opts.progress = io::stderr().is_terminal();
             let pipeline = Pipeline {
                 json_lines: json,
-                ..pipeline(case_seconds)?.with_jobs(opts.jobs)
+                ..pipeline(case_seconds)?.with_jobs(opts.jobs).reading_many()
             };
             let summary = watch::batch(&opts, Arc::new(pipeline))?;
             if json {
@@ -275,6 +288,10 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
                 code => bail!("the reader process failed ({code})"),
             }
         }
+        Command::ReadCellsServer => match crate::workbook::read::server_main() {
+            0 => Ok(Outcome::Ok),
+            code => bail!("the reader process failed ({code})"),
+        },
     }
 }
 

@@ -37,6 +37,20 @@ pub const READER_CPU_SECS: u64 = 15;
 /// Wall-clock seconds the watcher waits for a spreadsheet reader child process.
 pub const READER_WALL_SECS: u64 = 30;
 
+/// Most files one reader child of `batch` and `watch` reads before a fresh one takes over.
+/// Each file gets the memory and CPU limits above on top of what the child already holds;
+/// a child that holds more than [`READER_RECYCLE_CPU_SECS`] or
+/// [`READER_RECYCLE_ADDRESS_SPACE_BYTES`] from earlier files, or whose file failed, is
+/// replaced as well.
+pub const READER_FILES_PER_CHILD: usize = 100;
+
+/// CPU seconds of earlier files after which a reader child is replaced.
+pub const READER_RECYCLE_CPU_SECS: u64 = 2;
+
+/// Address space a reader child may have gained over earlier files before it is replaced,
+/// in bytes.
+pub const READER_RECYCLE_ADDRESS_SPACE_BYTES: u64 = 64 * 1024 * 1024;
+
 /// Most cells in one run (all layers together).
 pub const MAX_TOTAL_CELLS: usize = 100_000;
 

@@ -7,6 +7,11 @@ use clap::Parser;
 use dampfront::cli::{self, Cli, Outcome};
 
 fn main() -> ExitCode {
+    // The reader child processes start once per input (or per batch of inputs): they skip the
+    // command-line parser, the log set-up and the panic hook of the other commands.
+    if let Some(code) = reader_child() {
+        return ExitCode::from(u8::try_from(code).unwrap_or(2));
+    }
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
@@ -44,5 +49,18 @@ fn main() -> ExitCode {
             eprintln!("dampfront: {e:#}");
             ExitCode::from(2)
         }
+    }
+}
+
+/// Runs the reader child if the arguments are exactly those the parent gives it
+/// (`read-cells-child EXT` or `read-cells-server`): its exit code, else `None`.
+fn reader_child() -> Option<i32> {
+    use dampfront::workbook::read;
+    let mut args = std::env::args_os().skip(1);
+    let (first, second, rest) = (args.next()?, args.next(), args.next());
+    match (first.to_str()?, second.as_ref().map(|s| s.to_str()), rest) {
+        (read::CHILD_COMMAND, Some(Some(extension)), None) => Some(read::child_main(extension)),
+        (read::SERVER_COMMAND, None, None) => Some(read::server_main()),
+        _ => None,
     }
 }

@@ -280,6 +280,17 @@ impl Pipeline {
         }
     }
 
+    /// The same pipeline for many inputs: a pipeline that reads spreadsheets in one-shot child
+    /// processes reads them in children that stay up between files instead
+    /// ([`Isolation::Pooled`]), with the same limits per file.
+    pub fn reading_many(self) -> Pipeline {
+        let isolation = match self.isolation {
+            Isolation::Child { .. } => Isolation::pooled_this_program(),
+            other => other,
+        };
+        Pipeline { isolation, ..self }
+    }
+
     /// The same pipeline with the variants of studies solved on `jobs` threads (0: one per
     /// core), shared by all its inputs. Falls back to rayon's own pool if no pool can be made.
     pub fn with_jobs(self, jobs: usize) -> Pipeline {

@@ -9,9 +9,11 @@
 
 mod csv;
 mod isolate;
+mod pool;
 mod zip_check;
 
-pub use isolate::{Isolation, child_main};
+pub use isolate::{CHILD_COMMAND, Isolation, child_main};
+pub use pool::{ReaderPool, SERVER_COMMAND, server_main};
 
 use std::fs::File;
 use std::io::{Cursor, Read};

@@ -143,7 +143,12 @@ fn column_formats<'f>(
 }
 
 /// [`opt_number`] in a column that [`column_formats`] formatted.
-fn opt_plain(ws: &mut Worksheet, row: u32, col: u16, v: Option<f64>) -> Result<(), XlsxError> {
+pub(super) fn opt_plain(
+    ws: &mut Worksheet,
+    row: u32,
+    col: u16,
+    v: Option<f64>,
+) -> Result<(), XlsxError> {
     if let Some(v) = v.filter(|v| v.is_finite()) {
         ws.write_number(row, col, v)?;
     }
@@ -545,43 +550,77 @@ pub fn curve_headers(layers: usize) -> Vec<String> {
 /// Column of the step label on `curves`.
 const STEP_COLUMN: usize = 11;
 
-/// One curve row as cells: numbers (None = empty) in header order without the step column,
-/// and the step label.
-fn curve_cells(case: &Case, row: &crate::solver::CurveRow) -> (Vec<Option<f64>>, String) {
-    let rate = case.basis.slope_from_dry(row.mean) * row.drying_rate * 3600.0;
-    let mut v = vec![
-        Some(row.time / 3600.0),
-        Some(pct(case, row.mean)),
-        Some(pct(case, row.surface)),
-        Some(pct(case, row.centre)),
-        row.moisture_ratio,
-        Some(row.mean_temp_c),
-        Some(row.surface_temp_c),
-        Some(row.centre_temp_c),
-        Some(rate),
-        Some(row.air_temp_c),
-        row.air_rh.map(|rh| 100.0 * rh),
-    ];
-    v.extend(row.layer_means.iter().map(|&x| Some(pct(case, x))));
-    v.extend([
-        row.equilibrium.map(|x| pct(case, x)),
-        row.surface_water_activity,
-        row.centre_water_activity,
-        Some((pct(case, row.surface) - pct(case, row.centre)).abs()),
-        row.air_rh.and_then(|rh| {
-            crate::physics::psychro::wet_bulb_from_rh(
-                row.air_temp_c,
-                rh,
-                crate::physics::STANDARD_PRESSURE_PA,
-            )
-        }),
-    ]);
-    let v = v.into_iter().map(|x| x.filter(|x| x.is_finite())).collect();
-    let label = case
-        .schedule
-        .get(row.step)
-        .map_or_else(String::new, |s| s.label.clone());
-    (v, label)
+/// Curve rows as cells: numbers (None = empty) in header order without the step column, and
+/// the step label. It keeps the wet bulb of the last air it saw: rows share their air while a
+/// schedule step holds it constant, and the wet bulb is a root search (80 bisections of the
+/// psychrometric relation), which computed for every row was the largest part of building a
+/// result with air.
+struct CurveCells<'a> {
+    case: &'a Case,
+    /// The last air (dry bulb and relative humidity, as bits) and its wet bulb.
+    last_air: Option<((u64, u64), Option<f64>)>,
+    values: Vec<Option<f64>>,
+}
+
+impl<'a> CurveCells<'a> {
+    fn new(case: &'a Case) -> CurveCells<'a> {
+        CurveCells {
+            case,
+            last_air: None,
+            values: Vec::new(),
+        }
+    }
+
+    fn wet_bulb(&mut self, dry_bulb_c: f64, rh: f64) -> Option<f64> {
+        let key = (dry_bulb_c.to_bits(), rh.to_bits());
+        match self.last_air {
+            Some((k, wet)) if k == key => wet,
+            _ => {
+                let wet = crate::physics::psychro::wet_bulb_from_rh(
+                    dry_bulb_c,
+                    rh,
+                    crate::physics::STANDARD_PRESSURE_PA,
+                );
+                self.last_air = Some((key, wet));
+                wet
+            }
+        }
+    }
+
+    /// The cells of `row` (valid until the next call) and its step label.
+    fn row(&mut self, row: &crate::solver::CurveRow) -> (&[Option<f64>], &'a str) {
+        let case = self.case;
+        let rate = case.basis.slope_from_dry(row.mean) * row.drying_rate * 3600.0;
+        let wet_bulb = row.air_rh.and_then(|rh| self.wet_bulb(row.air_temp_c, rh));
+        let v = &mut self.values;
+        v.clear();
+        v.extend([
+            Some(row.time / 3600.0),
+            Some(pct(case, row.mean)),
+            Some(pct(case, row.surface)),
+            Some(pct(case, row.centre)),
+            row.moisture_ratio,
+            Some(row.mean_temp_c),
+            Some(row.surface_temp_c),
+            Some(row.centre_temp_c),
+            Some(rate),
+            Some(row.air_temp_c),
+            row.air_rh.map(|rh| 100.0 * rh),
+        ]);
+        v.extend(row.layer_means.iter().map(|&x| Some(pct(case, x))));
+        v.extend([
+            row.equilibrium.map(|x| pct(case, x)),
+            row.surface_water_activity,
+            row.centre_water_activity,
+            Some((pct(case, row.surface) - pct(case, row.centre)).abs()),
+            wet_bulb,
+        ]);
+        for x in v.iter_mut() {
+            *x = x.filter(|x| x.is_finite());
+        }
+        let label = case.schedule.get(row.step).map_or("", |s| s.label.as_str());
+        (v, label)
+    }
 }
 
 /// Where the chart helper cells (measured points, target line) start on `curves`.
@@ -601,9 +640,10 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
         ws,
         (0..numeric).map(|c| (value_col(c), if c == 0 { &f.hours } else { &f.number })),
     )?;
+    let mut cells = CurveCells::new(case);
     for (i, row) in r.run.curves.iter().enumerate() {
         let excel_row = i as u32 + 1;
-        let (values, label) = curve_cells(case, row);
+        let (values, label) = cells.row(row);
         for (c, v) in values.iter().enumerate() {
             if c < numeric {
                 opt_plain(ws, excel_row, value_col(c), *v)?;
@@ -611,7 +651,7 @@ fn curves_sheet(wb: &mut Workbook, r: &ResultInput<'_>, f: &Formats) -> Result<(
                 opt_number(ws, excel_row, value_col(c), *v, &f.number)?;
             }
         }
-        ws.write_string(excel_row, STEP_COLUMN as u16, &label)?;
+        ws.write_string(excel_row, STEP_COLUMN as u16, label)?;
     }
     // Helper cells for the charts, right of the table after an empty column.
     let base = helper_column(case);
@@ -1113,13 +1153,14 @@ pub fn curves_csv(case: &Case, run: &RunResult) -> String {
     let headers = curve_headers(case.layers.len());
     let mut out = headers.join(",");
     out.push('\n');
+    let mut cells = CurveCells::new(case);
     for row in &run.curves {
-        let (values, label) = curve_cells(case, row);
+        let (values, label) = cells.row(row);
         let mut fields: Vec<String> = values[..STEP_COLUMN]
             .iter()
             .map(|v| csv_number(*v))
             .collect();
-        fields.push(csv_field(&label));
+        fields.push(csv_field(label));
         fields.extend(values[STEP_COLUMN..].iter().map(|v| csv_number(*v)));
         out.push_str(&fields.join(","));
         out.push('\n');

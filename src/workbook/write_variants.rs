@@ -6,7 +6,7 @@ use rust_xlsxwriter::{
     Chart, ChartLegendPosition, ChartType, Format, FormatAlign, Workbook, XlsxError,
 };
 
-use super::write::opt_number as number;
+use super::write::{opt_number as number, opt_plain};
 use crate::study::run::Outcome;
 
 /// The `variants` sheet's columns, exactly as the format page lists them, then dampfront's
@@ -101,10 +101,14 @@ pub fn add_sheets(wb: &mut Workbook, v: &Variants<'_>) -> Result<(), XlsxError> 
         cs.write_string_with_format(1, col, "hours", &header)?;
         cs.write_string_with_format(1, col + 1, "mean_moisture_pct", &header)?;
         cs.set_column_width(col + 1, 14)?;
+        // Every cell below the two header rows has the column's number format: given once to
+        // the column, not hashed again for each of up to a thousand points (as on `curves`).
+        cs.set_column_format(col, &hours)?;
+        cs.set_column_format(col + 1, &num)?;
         for (i, (h, x)) in curve.iter().enumerate() {
             let row = i as u32 + 2;
-            number(cs, row, col, Some(*h), &hours)?;
-            number(cs, row, col + 1, Some(*x), &num)?;
+            opt_plain(cs, row, col, Some(*h))?;
+            opt_plain(cs, row, col + 1, Some(*x))?;
         }
         if k < MAX_CHART_SERIES && !curve.is_empty() {
             let last = curve.len() as u32 + 1;

@@ -9,17 +9,21 @@
 //! ([`crate::limits::READER_ADDRESS_SPACE_BYTES`], [`crate::limits::READER_CPU_SECS`]). The
 //! parent sends the file's bytes on the child's standard input and reads the cells back from
 //! its standard output; a child that dies or overruns its time is reported as an input that is
-//! too large or malformed, and the parent carries on. CSV is read by our own bounded reader in
-//! the process itself.
+//! too large or malformed, and the parent carries on. `batch` and `watch` keep such children
+//! between files ([`super::pool`]). CSV is read by our own bounded reader in the process
+//! itself.
 
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
+use std::sync::mpsc::RecvTimeoutError;
 use std::time::{Duration, Instant};
 
+use super::pool::ReaderPool;
 use super::{ReadError, read_bytes};
 use crate::limits::{
-    MAX_FILE_BYTES, READER_ADDRESS_SPACE_BYTES, READER_CPU_SECS, READER_WALL_SECS,
+    MAX_FILE_BYTES, READER_ADDRESS_SPACE_BYTES, READER_CPU_SECS, READER_FILES_PER_CHILD,
+    READER_WALL_SECS,
 };
 use crate::workbook::raw::{RawBook, RawSheet, RawValue};
 
@@ -37,22 +41,28 @@ pub enum Isolation {
         /// The program to start.
         exe: PathBuf,
     },
+    /// In child processes that stay up between files (`batch`, `watch`), with the same limits
+    /// per file as [`Isolation::Child`]; see [`ReaderPool`].
+    Pooled(ReaderPool),
 }
 
 impl Isolation {
     /// A child of the running program (on Linux through `/proc/self/exe`, which still works
     /// after the binary was replaced on disk).
     pub fn this_program() -> Isolation {
-        let proc_exe = Path::new("/proc/self/exe");
-        let exe = if proc_exe.exists() {
-            proc_exe.to_path_buf()
-        } else {
-            match std::env::current_exe() {
-                Ok(p) => p,
-                Err(_) => return Isolation::InProcess,
-            }
-        };
-        Isolation::Child { exe }
+        match this_exe() {
+            Some(exe) => Isolation::Child { exe },
+            None => Isolation::InProcess,
+        }
+    }
+
+    /// Children of the running program that each read many files ([`ReaderPool`]), for
+    /// commands that read many files.
+    pub fn pooled_this_program() -> Isolation {
+        match this_exe() {
+            Some(exe) => Isolation::Pooled(ReaderPool::new(exe, READER_FILES_PER_CHILD)),
+            None => Isolation::InProcess,
+        }
     }
 
     /// Reads `bytes` (a file with extension `extension`) as [`read_bytes`] does.
@@ -63,16 +73,24 @@ impl Isolation {
             Isolation::Child { exe } if spreadsheet && !bytes.is_empty() => {
                 read_in_child(exe, bytes, &ext)
             }
+            Isolation::Pooled(pool) if spreadsheet && !bytes.is_empty() => pool.read(bytes, &ext),
             _ => read_bytes(bytes, extension),
         }
     }
 }
 
+/// This program's path for starting it again, if it can be found.
+fn this_exe() -> Option<PathBuf> {
+    let proc_exe = Path::new("/proc/self/exe");
+    if proc_exe.exists() {
+        Some(proc_exe.to_path_buf())
+    } else {
+        std::env::current_exe().ok()
+    }
+}
+
 fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadError> {
-    let system = |what: &str, e: std::io::Error| ReadError::Io {
-        path: exe.to_path_buf(),
-        source: std::io::Error::new(e.kind(), format!("{what}: {e}")),
-    };
+    let system = |what: &str, e: std::io::Error| system_error(exe, what, e);
     let mut child = Command::new(exe)
         .arg(CHILD_COMMAND)
         .arg(ext)
@@ -96,9 +114,13 @@ fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadErr
         // A child that died early closes its end; that shows in its exit status.
         let _ = stdin.write_all(&input);
     });
+    // The stdout reader says when the child closed its standard output, which it does by
+    // ending: the parent waits on that instead of polling the child's status.
+    let (closed_tx, closed_rx) = std::sync::mpsc::channel::<()>();
     let out_reader = std::thread::spawn(move || {
         let mut out = Vec::new();
         let _ = stdout.read_to_end(&mut out);
+        let _ = closed_tx.send(());
         out
     });
     let err_reader = std::thread::spawn(move || {
@@ -107,46 +129,50 @@ fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadErr
         err
     });
     let deadline = Instant::now() + Duration::from_secs(READER_WALL_SECS);
-    let status = loop {
-        match child.try_wait() {
-            Ok(Some(status)) => break Some(status),
-            Ok(None) if Instant::now() >= deadline => {
-                let _ = child.kill();
-                let _ = child.wait();
-                break None;
-            }
-            Ok(None) => std::thread::sleep(Duration::from_millis(5)),
-            Err(e) => {
-                let _ = child.kill();
-                let _ = child.wait();
-                return Err(system("the reader process could not be waited for", e));
-            }
+    let status = match closed_rx.recv_timeout(deadline.saturating_duration_since(Instant::now())) {
+        // Closed (or the reader thread is gone): the child is ending; collect its status.
+        Ok(()) | Err(RecvTimeoutError::Disconnected) => wait_until(&mut child, deadline)
+            .map_err(|e| system("the reader process could not be waited for", e))?,
+        Err(RecvTimeoutError::Timeout) => {
+            let _ = child.kill();
+            let _ = child.wait();
+            None
         }
     };
     let _ = writer.join();
     let out = out_reader.join().unwrap_or_default();
     let err = err_reader.join().unwrap_or_default();
-    let err = String::from_utf8_lossy(&err);
+    match status {
+        Some(status) if status.success() => decode(&out)
+            .unwrap_or_else(|| Err(not_a_workbook("the reader process answered garbage"))),
+        status => Err(failure(exe, status, &err)),
+    }
+}
+
+/// Why a reader child gave no answer: `status` is `None` when it overran the wall-clock limit
+/// (and was killed), else how it ended; `err` is what it wrote on standard error.
+pub(super) fn failure(
+    exe: &Path,
+    status: Option<std::process::ExitStatus>,
+    err: &[u8],
+) -> ReadError {
+    let err = String::from_utf8_lossy(err);
     if !err.trim().is_empty() {
         tracing::debug!("reader process said: {}", err.trim());
     }
     let Some(status) = status else {
-        return Err(ReadError::TooLarge {
+        return ReadError::TooLarge {
             detail: format!("reading it took longer than {READER_WALL_SECS} s"),
-        });
+        };
     };
-    if status.success() {
-        return decode(&out)
-            .unwrap_or_else(|| Err(not_a_workbook("the reader process answered garbage")));
-    }
     if err.contains("memory allocation") || err.contains("capacity overflow") {
-        return Err(ReadError::TooLarge {
+        return ReadError::TooLarge {
             detail: format!(
                 "reading it needs more than {} MiB of memory (a sheet whose cells lie far \
                  apart, or a damaged file)",
                 READER_ADDRESS_SPACE_BYTES / (1024 * 1024)
             ),
-        });
+        };
     }
     #[cfg(unix)]
     {
@@ -155,30 +181,68 @@ fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadErr
         /// is not to blame.
         const STOP_SIGNALS: [i32; 3] = [1, 2, 15];
         if status.signal().is_some_and(|s| STOP_SIGNALS.contains(&s)) {
-            return Err(system(
+            return system_error(
+                exe,
                 "the reader process was stopped",
                 std::io::Error::other("by a signal"),
-            ));
+            );
         }
         /// SIGKILL and SIGXCPU (Linux numbering): the CPU limit ended the child.
         const CPU_SIGNALS: [i32; 2] = [9, 24];
         if status.signal().is_some_and(|s| CPU_SIGNALS.contains(&s)) {
-            return Err(ReadError::TooLarge {
+            return ReadError::TooLarge {
                 detail: format!("reading it needs more than {READER_CPU_SECS} s of CPU time"),
-            });
+            };
         }
     }
-    Err(ReadError::TooLarge {
+    ReadError::TooLarge {
         detail: format!(
             "the spreadsheet reader could not read it within {} MiB of memory and {} s of CPU \
              (a damaged or hostile file)",
             READER_ADDRESS_SPACE_BYTES / (1024 * 1024),
             READER_CPU_SECS
         ),
-    })
+    }
 }
 
-fn not_a_workbook(detail: &str) -> ReadError {
+/// A system error about the reader process `exe`: `what` happened, the system said `e`.
+pub(super) fn system_error(exe: &Path, what: &str, e: std::io::Error) -> ReadError {
+    ReadError::Io {
+        path: exe.to_path_buf(),
+        source: std::io::Error::new(e.kind(), format!("{what}: {e}")),
+    }
+}
+
+/// The exit status of a child that has closed its output and is ending: `None` (the child
+/// killed) if it is still running at `deadline`. The status is normally there at once or
+/// within microseconds; the waits between looks start at 20 us and double up to 5 ms.
+pub(super) fn wait_until(
+    child: &mut std::process::Child,
+    deadline: Instant,
+) -> std::io::Result<Option<std::process::ExitStatus>> {
+    let mut pause = Duration::from_micros(20);
+    loop {
+        match child.try_wait() {
+            Ok(Some(status)) => return Ok(Some(status)),
+            Ok(None) if Instant::now() >= deadline => {
+                let _ = child.kill();
+                let _ = child.wait();
+                return Ok(None);
+            }
+            Ok(None) => {
+                std::thread::sleep(pause);
+                pause = (pause * 2).min(Duration::from_millis(5));
+            }
+            Err(e) => {
+                let _ = child.kill();
+                let _ = child.wait();
+                return Err(e);
+            }
+        }
+    }
+}
+
+pub(super) fn not_a_workbook(detail: &str) -> ReadError {
     ReadError::NotAWorkbook {
         detail: detail.to_string(),
     }
@@ -187,17 +251,13 @@ fn not_a_workbook(detail: &str) -> ReadError {
 /// The child: limits itself, reads the bytes on standard input as a file with extension
 /// `extension`, writes the cells (or the error) to standard output. Returns the exit code.
 pub fn child_main(extension: &str) -> i32 {
-    limit_self();
-    // Ctrl-C in a terminal reaches the whole process group: the parent decides what a stop
-    // means, the child finishes its (short) read.
-    for signal in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
-        let _ = signal_hook::flag::register(
-            signal,
-            std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false)),
-        );
-    }
-    // A panic inside the reader is caught and answered as an error; say nothing on stderr.
-    std::panic::set_hook(Box::new(|_| {}));
+    set_limit(
+        RLIMIT_AS,
+        READER_ADDRESS_SPACE_BYTES,
+        READER_ADDRESS_SPACE_BYTES,
+    );
+    set_limit(RLIMIT_CPU, READER_CPU_SECS, READER_CPU_SECS);
+    quiet_child();
     let mut bytes = Vec::new();
     if std::io::stdin()
         .take(MAX_FILE_BYTES + 1)
@@ -215,8 +275,29 @@ pub fn child_main(extension: &str) -> i32 {
     }
 }
 
-/// Sets the address-space and CPU limits of this process (Linux; elsewhere nothing).
-fn limit_self() {
+/// What every reader child does before it reads: it ignores the terminal's stop signals and
+/// says nothing about panics.
+pub(super) fn quiet_child() {
+    // Ctrl-C in a terminal reaches the whole process group: the parent decides what a stop
+    // means, the child finishes its (short) read.
+    for signal in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+        let _ = signal_hook::flag::register(
+            signal,
+            std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false)),
+        );
+    }
+    // A panic inside the reader is caught and answered as an error; say nothing on stderr.
+    std::panic::set_hook(Box::new(|_| {}));
+}
+
+/// Resource numbers from Linux's asm-generic/resource.h.
+pub(super) const RLIMIT_CPU: i32 = 0;
+pub(super) const RLIMIT_CORE: i32 = 4;
+pub(super) const RLIMIT_AS: i32 = 9;
+
+/// Sets the soft and hard limit of `resource` for this process (Linux; elsewhere nothing).
+/// The hard limit can only be lowered; the soft one moves freely below it.
+pub(super) fn set_limit(resource: i32, soft: u64, hard: u64) {
     #[cfg(target_os = "linux")]
     {
         #[repr(C)]
@@ -227,22 +308,16 @@ fn limit_self() {
         unsafe extern "C" {
             fn setrlimit(resource: i32, rlim: *const RLimit) -> i32;
         }
-        /// Resource numbers from Linux's asm-generic/resource.h.
-        const RLIMIT_CPU: i32 = 0;
-        const RLIMIT_AS: i32 = 9;
-        for (resource, value) in [
-            (RLIMIT_AS, READER_ADDRESS_SPACE_BYTES),
-            (RLIMIT_CPU, READER_CPU_SECS),
-        ] {
-            let limit = RLimit {
-                cur: value,
-                max: value,
-            };
-            // SAFETY: setrlimit reads one properly laid out struct rlimit (two rlim_t, 64-bit
-            // on Linux) through a pointer valid for the call; it has no other effect on memory.
-            let _ = unsafe { setrlimit(resource, &limit) };
-        }
+        let limit = RLimit {
+            cur: soft,
+            max: hard,
+        };
+        // SAFETY: setrlimit reads one properly laid out struct rlimit (two rlim_t, 64-bit
+        // on Linux) through a pointer valid for the call; it has no other effect on memory.
+        let _ = unsafe { setrlimit(resource, &limit) };
     }
+    #[cfg(not(target_os = "linux"))]
+    let _ = (resource, soft, hard);
 }
 
 // The wire form: `K` then a sheet as `S` name, then cells `C` row col value; `E` kind message
@@ -253,7 +328,7 @@ fn put_str(out: &mut Vec<u8>, s: &str) {
     out.extend_from_slice(s.as_bytes());
 }
 
-fn encode(result: &Result<RawBook, ReadError>) -> Vec<u8> {
+pub(super) fn encode(result: &Result<RawBook, ReadError>) -> Vec<u8> {
     let mut out = Vec::new();
     match result {
         Ok(book) => {
@@ -330,7 +405,7 @@ impl Input<'_> {
 /// A sheet being decoded: its name and (row, column, value) cells.
 type Section = (String, Vec<(u32, u32, RawValue)>);
 
-fn decode(bytes: &[u8]) -> Option<Result<RawBook, ReadError>> {
+pub(super) fn decode(bytes: &[u8]) -> Option<Result<RawBook, ReadError>> {
     let mut input = Input { bytes, at: 0 };
     match input.byte()? {
         b'E' => {
