@@ -172,9 +172,10 @@ pub fn bracketed_root(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64, tol: f64
     0.5 * (lo + hi)
 }
 
-/// Outflow through an exposed face from its cell value `xc`: (outflow, d outflow / d xc,
-/// surface moisture). The surface moisture balances conduction over the half cell against the
-/// face law.
+/// Outflow through an exposed face from the value `xc` at distance `reach` from it (the cell's
+/// value over the half cell, or the extrapolated X* of a [`super::problem::SurfaceGradient`]):
+/// (outflow, d outflow / d xc, surface moisture). The surface moisture balances conduction over
+/// `reach` against the face law.
 pub fn face_outflow(
     m: &MaterialProps,
     reach: f64,
@@ -191,7 +192,7 @@ pub fn face_outflow(
 ///
 /// - Fixed surface: closed form.
 /// - Content-based law k (X_s - X_eq): closed form with a constant diffusivity,
-///   X_s = (g D X_c + k X_eq) / (g D + k) with g = rho / half cell; otherwise Newton on X_s
+///   X_s = (g D X_c + k X_eq) / (g D + k) with g = rho / reach; otherwise Newton on X_s
 ///   inside the bracket [X_eq, X_c].
 /// - Air-side law hm (aw c_sat - rho_v): the unknown is the surface water activity aw, so the
 ///   isotherm is only evaluated forward (X(aw) and its slope, no inversion): Newton on
@@ -210,7 +211,7 @@ pub fn face_outflow_from(
     guess: f64,
 ) -> (f64, f64, f64, f64) {
     let g = m.density / reach;
-    // Conduction over the half cell towards the surface, and its partial derivatives.
+    // Conduction over `reach` towards the surface, and its partial derivatives.
     let conduction = |xs: f64| {
         let xm = 0.5 * (xc + xs);
         let (d, dd) = m.diffusivity.at_with_slope_x(xm, t_c);
