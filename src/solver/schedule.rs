@@ -4,7 +4,7 @@
 //! schedule step and triggers.
 
 use super::driver::surface_equilibrium;
-use super::problem::{Air, Problem};
+use super::problem::{Air, Problem, StepPlan};
 use super::stepper::Stepper;
 
 /// How a schedule step ended.
@@ -91,14 +91,24 @@ impl ScheduleWalker {
     }
 
     /// Tells the stepper which mean moistures end the run (the target) or the step.
+    ///
+    /// A level beyond the equilibrium the step's air drives the body towards (past it, seen from
+    /// the mean now) is not armed: the mean only approaches that equilibrium, and the
+    /// second-order time steps can dip past it by about the tolerance times the range dried,
+    /// which must not count as reaching a level the air cannot bring.
     fn set_triggers(&self, p: &Problem, stepper: &mut Stepper<'_>) {
         let (i, _) = stepper.schedule_step();
+        let step = p.steps.get(i);
         let until = if self.done {
             None
         } else {
-            p.steps.get(i).and_then(|s| s.until_moisture)
+            step.and_then(|s| s.until_moisture)
         };
-        stepper.set_triggers([p.target, until]);
+        let mean = p.mean(stepper.moisture());
+        let reachable = |level: Option<f64>| {
+            level.filter(|&l| step.is_none_or(|s| within_reach(p, s, mean, l)))
+        };
+        stepper.set_triggers([reachable(p.target), reachable(until)]);
     }
 
     /// A surface-centre difference seen at the current state.
@@ -191,6 +201,31 @@ impl ScheduleWalker {
         }
         self.step_max = None;
         self.set_triggers(p, stepper);
+    }
+}
+
+/// Whether the air of `step` can bring the mean moisture from `mean` to `level`: not when the
+/// level lies past every equilibrium the step's air (at its start and its end, for a ramp)
+/// drives the body towards. Without a known equilibrium, every level counts as reachable.
+fn within_reach(p: &Problem, step: &StepPlan, mean: f64, level: f64) -> bool {
+    let equilibria: Vec<f64> = [step.from, step.to]
+        .into_iter()
+        .filter_map(|air| {
+            p.equilibrium_mean(step, air)
+                .filter(|x| x.is_finite())
+                .or_else(|| surface_equilibrium(p, step, air))
+        })
+        .collect();
+    let lowest = equilibria.iter().copied().fold(f64::INFINITY, f64::min);
+    let highest = equilibria.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if equilibria.is_empty() {
+        true
+    } else if mean > highest {
+        level >= lowest
+    } else if mean < lowest {
+        level <= highest
+    } else {
+        true
     }
 }
 
