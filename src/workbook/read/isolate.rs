@@ -187,11 +187,21 @@ pub(super) fn failure(
                 std::io::Error::other("by a signal"),
             );
         }
-        /// SIGKILL and SIGXCPU (Linux numbering): the CPU limit ended the child.
-        const CPU_SIGNALS: [i32; 2] = [9, 24];
-        if status.signal().is_some_and(|s| CPU_SIGNALS.contains(&s)) {
+        /// SIGXCPU (Linux numbering): the CPU limit ended the child.
+        const SIGXCPU: i32 = 24;
+        if status.signal() == Some(SIGXCPU) {
             return ReadError::TooLarge {
                 detail: format!("reading it needs more than {READER_CPU_SECS} s of CPU time"),
+            };
+        }
+        /// SIGKILL: the hard CPU limit, or the system (its out-of-memory killer, an operator).
+        const SIGKILL: i32 = 9;
+        if status.signal() == Some(SIGKILL) {
+            return ReadError::TooLarge {
+                detail: format!(
+                    "the reader process was killed: reading it needs more than {READER_CPU_SECS} \
+                     s of CPU time, or the system ended it (short of memory, or by hand)"
+                ),
             };
         }
     }
