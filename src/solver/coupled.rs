@@ -78,6 +78,40 @@ pub struct FaceSolution {
     pub d_energy: [f64; 2],
 }
 
+impl FaceSolution {
+    /// The rates of a face solved to (`x_s`, `t_s`) with outflow `j`: the energy in is the
+    /// convection less the latent and sensible heat the leaving water takes. With `derivatives`
+    /// (d j and d T_s by the cell's (X_c, T_c)), the rates' derivatives follow from those.
+    fn at_surface(
+        face: &HeatFace,
+        j: f64,
+        (x_s, t_s): (f64, f64),
+        derivatives: Option<([f64; 2], [f64; 2])>,
+    ) -> FaceSolution {
+        let lv = latent_heat_j_kg(t_s);
+        let convective = face.h * (face.t_air - t_s);
+        let mut solution = FaceSolution {
+            outflow: j,
+            energy_in: convective - j * (lv + CW * t_s),
+            convective,
+            latent: j * lv,
+            x_s,
+            t_s,
+            ..FaceSolution::default()
+        };
+        if let Some((dj, dts)) = derivatives {
+            let et = 1e-4;
+            let lv_t = (latent_heat_j_kg(t_s + et) - latent_heat_j_kg(t_s - et)) / (2.0 * et);
+            solution.d_outflow = dj;
+            for b in 0..2 {
+                solution.d_energy[b] =
+                    -face.h * dts[b] - (lv + CW * t_s) * dj[b] - j * (lv_t + CW) * dts[b];
+            }
+        }
+        solution
+    }
+}
+
 /// Buffers of the coupled Newton solve, sized once.
 #[derive(Debug, Clone)]
 pub struct CoupledWorkspace {
@@ -445,28 +479,9 @@ fn air_side_newton(
             // ds/dc = -Gs^-1 Gc, column by column.
             let col = |b: usize| solve(&gs, [gc[0][b], gc[1][b]]).map(|v| [-v[0], -v[1]]);
             let (d_x, d_t) = (col(0)?, col(1)?);
-            let lv = latent_heat_j_kg(t_s);
-            let et = 1e-4;
-            let lv_t = (latent_heat_j_kg(t_s + et) - latent_heat_j_kg(t_s - et)) / (2.0 * et);
-            let mut d_outflow = [0.0; 2];
-            let mut d_energy = [0.0; 2];
-            for (b, ds) in [d_x, d_t].into_iter().enumerate() {
-                let dj = j_a * ds[0] + j_t * ds[1];
-                let dts = ds[1];
-                d_outflow[b] = dj;
-                d_energy[b] = -face.h * dts - (lv + CW * t_s) * dj - j * (lv_t + CW) * dts;
-            }
-            let convective = face.h * (face.t_air - t_s);
-            let solution = FaceSolution {
-                outflow: j,
-                energy_in: convective - j * (lv + CW * t_s),
-                convective,
-                latent: j * lv,
-                x_s,
-                t_s,
-                d_outflow,
-                d_energy,
-            };
+            let dj = [d_x, d_t].map(|ds| j_a * ds[0] + j_t * ds[1]);
+            let dts = [d_x[1], d_t[1]];
+            let solution = FaceSolution::at_surface(face, j, (x_s, t_s), Some((dj, dts)));
             return Some((solution, [t_s, a]));
         }
     }
@@ -551,18 +566,8 @@ fn face_solution(
     let s = [x_s, t_s];
     let c = [x_c, t_c];
     let (_, j) = surface_equations(m, k, site, face, s, c);
-    let lv = latent_heat_j_kg(t_s);
-    let convective = face.h * (face.t_air - t_s);
     if !derivatives {
-        return FaceSolution {
-            outflow: j,
-            energy_in: convective - j * (lv + CW * t_s),
-            convective,
-            latent: j * lv,
-            x_s,
-            t_s,
-            ..FaceSolution::default()
-        };
+        return FaceSolution::at_surface(face, j, (x_s, t_s), None);
     }
     let eps = [1e-7 * (x_s.abs() + scale), 1e-6 * (t_s.abs() + 1.0)];
     let eps_c = [1e-7 * (x_c.abs() + scale), 1e-6 * (t_c.abs() + 1.0)];
@@ -603,26 +608,9 @@ fn face_solution(
             }
         }
     }
-    let dl = 1e-4;
-    let lv_slope = (latent_heat_j_kg(t_s + dl) - latent_heat_j_kg(t_s - dl)) / (2.0 * dl);
-    let mut d_outflow = [0.0; 2];
-    let mut d_energy = [0.0; 2];
-    for b in 0..2 {
-        let dj = jc[b] + js[0] * ds[0][b] + js[1] * ds[1][b];
-        let dts = ds[1][b];
-        d_outflow[b] = dj;
-        d_energy[b] = -face.h * dts - (lv + CW * t_s) * dj - j * (lv_slope + CW) * dts;
-    }
-    FaceSolution {
-        outflow: j,
-        energy_in: convective - j * (lv + CW * t_s),
-        convective,
-        latent: j * lv,
-        x_s,
-        t_s,
-        d_outflow,
-        d_energy,
-    }
+    let dj = [0, 1].map(|b| jc[b] + js[0] * ds[0][b] + js[1] * ds[1][b]);
+    let dts = ds[1];
+    FaceSolution::at_surface(face, j, (x_s, t_s), Some((dj, dts)))
 }
 
 /// Evaluates every face's water and energy flux and derivative blocks at `state` into the
