@@ -6,7 +6,7 @@
 //! left and on its right; a stage's residual and its tridiagonal Jacobian are assembled from
 //! those.
 
-use super::problem::{FaceLaw, InnerFace, MaterialProps, Problem};
+use super::problem::{FaceLaw, FaceSite, InnerFace, MaterialProps, Problem};
 use super::workspace::Workspace;
 
 /// Maximum Newton iterations per stage solve before the step is rejected.
@@ -484,36 +484,41 @@ pub fn evaluate_faces_with(
     ws.d_left[n] = 0.0;
     ws.d_right[n] = 0.0;
     ws.face_far = [0.0; 2];
-    if let Some(site) = &problem.face_a {
-        let m = &problem.materials[site.material];
-        let (xv, w1, w2) = site
-            .gradient
-            .extrapolate(x, site.cell, laws.a.uses_isotherm());
-        let (j, dj, xs, u) =
-            face_outflow_from(m, site.gradient.reach, laws.a, xv, t_c, ws.face_guess[0]);
-        ws.face_guess[0] = u;
-        // Outflow at face A runs towards -s.
-        ws.flux[0] = -j;
-        ws.d_right[0] = -dj * w1;
-        ws.face_far[0] = -dj * w2;
-        s.out_a = j;
-        s.x_a = xs;
-    }
-    if let Some(site) = &problem.face_b {
-        let m = &problem.materials[site.material];
-        let (xv, w1, w2) = site
-            .gradient
-            .extrapolate(x, site.cell, laws.b.uses_isotherm());
-        let (j, dj, xs, u) =
-            face_outflow_from(m, site.gradient.reach, laws.b, xv, t_c, ws.face_guess[1]);
-        ws.face_guess[1] = u;
-        ws.flux[n] = j;
-        ws.d_left[n] = dj * w1;
-        ws.face_far[1] = dj * w2;
-        s.out_b = j;
-        s.x_b = xs;
+    for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
+        let Some(site) = site else { continue };
+        let (j, [near, far], xs) =
+            solve_exposed(problem, site, law, t_c, x, &mut ws.face_guess[side]);
+        if side == 0 {
+            // Outflow at face A runs towards -s.
+            ws.flux[0] = -j;
+            ws.d_right[0] = -near;
+            ws.face_far[0] = -far;
+            (s.out_a, s.x_a) = (j, xs);
+        } else {
+            ws.flux[n] = j;
+            ws.d_left[n] = near;
+            ws.face_far[1] = far;
+            (s.out_b, s.x_b) = (j, xs);
+        }
     }
     s
+}
+
+/// One exposed face at state `x`, from its second-order gradient: (outflow, its derivatives by
+/// the face's cell and by the second cell in, surface moisture). Updates the face's warm start.
+fn solve_exposed(
+    problem: &Problem,
+    site: &FaceSite,
+    law: FaceLaw,
+    t_c: f64,
+    x: &[f64],
+    guess: &mut f64,
+) -> (f64, [f64; 2], f64) {
+    let m = &problem.materials[site.material];
+    let (xv, w1, w2) = site.gradient.extrapolate(x, site.cell, law.uses_isotherm());
+    let (j, dj, xs, u) = face_outflow_from(m, site.gradient.reach, law, xv, t_c, *guess);
+    *guess = u;
+    (j, [dj * w1, dj * w2], xs)
 }
 
 /// The surface figures of state `x` alone (only the exposed faces are solved; the interior
@@ -535,11 +540,7 @@ pub fn exposed_surfaces(
     };
     for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
         if let Some(site) = site {
-            let m = &problem.materials[site.material];
-            let (xv, _, _) = site.gradient.extrapolate(x, site.cell, law.uses_isotherm());
-            let (j, _, xs, u) =
-                face_outflow_from(m, site.gradient.reach, law, xv, t_c, ws.face_guess[side]);
-            ws.face_guess[side] = u;
+            let (j, _, xs) = solve_exposed(problem, site, law, t_c, x, &mut ws.face_guess[side]);
             if side == 0 {
                 (s.out_a, s.x_a) = (j, xs);
             } else {
