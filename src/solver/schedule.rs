@@ -204,17 +204,21 @@ impl ScheduleWalker {
     }
 }
 
+/// The mean moisture `step`'s air `air` drives the body towards: the whole body's equilibrium,
+/// else the surface's.
+fn equilibrium_towards(p: &Problem, step: &StepPlan, air: Air) -> Option<f64> {
+    p.equilibrium_mean(step, air)
+        .filter(|x| x.is_finite())
+        .or_else(|| surface_equilibrium(p, step, air))
+}
+
 /// Whether the air of `step` can bring the mean moisture from `mean` to `level`: not when the
 /// level lies past every equilibrium the step's air (at its start and its end, for a ramp)
 /// drives the body towards. Without a known equilibrium, every level counts as reachable.
 fn within_reach(p: &Problem, step: &StepPlan, mean: f64, level: f64) -> bool {
     let equilibria: Vec<f64> = [step.from, step.to]
         .into_iter()
-        .filter_map(|air| {
-            p.equilibrium_mean(step, air)
-                .filter(|x| x.is_finite())
-                .or_else(|| surface_equilibrium(p, step, air))
-        })
+        .filter_map(|air| equilibrium_towards(p, step, air))
         .collect();
     let lowest = equilibria.iter().copied().fold(f64::INFINITY, f64::min);
     let highest = equilibria.iter().copied().fold(f64::NEG_INFINITY, f64::max);
@@ -241,10 +245,7 @@ fn already_reached(p: &Problem, stepper: &Stepper<'_>) -> Option<&'static str> {
     if mean == level {
         return Some("the mean stood exactly at it");
     }
-    let eq = p
-        .equilibrium_mean(step, step.to)
-        .filter(|x| x.is_finite())
-        .or_else(|| surface_equilibrium(p, step, step.to))?;
+    let eq = equilibrium_towards(p, step, step.to)?;
     if mean > eq && mean <= level {
         Some("the step's air dries the product and the mean was already at or below it")
     } else if mean < eq && mean >= level {
