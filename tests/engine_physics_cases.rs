@@ -407,8 +407,8 @@ fn a_target_past_the_equilibrium_is_not_reached_by_a_dip_of_the_time_steps() {
     let equilibrium = Isotherm::Wood
         .equilibrium_moisture(0.02, 120.0)
         .expect("the wood isotherm covers 120 C");
-    // The second-order time steps dip below the equilibrium by about the tolerance times the
-    // range dried (3.0 here) before settling; that dip crossed a target 0.25 % below the
+    // The time steps may dip below the equilibrium by up to about the tolerance times the range
+    // dried (3.0 here) before settling; such a dip crossed a target 0.25 % below the
     // equilibrium and was reported as reaching it.
     let run = solver::solve(&wood_in_dry_air(0.9975 * equilibrium)).expect("runs");
     assert_eq!(run.status, RunStatus::TargetNotReached);

@@ -1,5 +1,5 @@
 //! The moisture (and coupled heat) solver: a finite-volume mesh graded by the surface Biot number,
-//! TR-BDF2 time steps (two implicit stages, each a Newton solve on a tridiagonal or 2x2
+//! ESDIRK4(3) time steps (five implicit stages, each a Newton solve on a tridiagonal or 2x2
 //! block-tridiagonal system) with an embedded error estimate, and a run loop that follows the
 //! schedule. Knows nothing of files.
 //!
@@ -10,6 +10,7 @@
 pub mod blocktri;
 pub mod coupled;
 mod driver;
+pub mod esdirk;
 pub mod flux;
 pub mod mesh;
 pub mod method;

@@ -93,9 +93,9 @@ impl ScheduleWalker {
     /// Tells the stepper which mean moistures end the run (the target) or the step.
     ///
     /// A level beyond the equilibrium the step's air drives the body towards (past it, seen from
-    /// the mean now) is not armed: the mean only approaches that equilibrium, and the
-    /// second-order time steps can dip past it by about the tolerance times the range dried,
-    /// which must not count as reaching a level the air cannot bring.
+    /// the mean now) is not armed: the mean only approaches that equilibrium, and the time
+    /// steps can dip past it by up to about the tolerance times the range dried (the error
+    /// they are allowed), which must not count as reaching a level the air cannot bring.
     fn set_triggers(&self, p: &Problem, stepper: &mut Stepper<'_>) {
         let (i, _) = stepper.schedule_step();
         let step = p.steps.get(i);

@@ -1,4 +1,4 @@
-//! The time stepper: a [`Method`] (TR-BDF2) with error-per-step control, exact landing on stop
+//! The time stepper: a [`Method`] (ESDIRK4(3)) with error-per-step control, exact landing on stop
 //! times, mean-moisture triggers and dense output inside the last step.
 //!
 //! The stepper owns the state, the step size and the schedule step in force; the method solves
@@ -10,8 +10,9 @@ use std::fmt;
 
 use super::SolveError;
 use super::coupled::{HeatFace, HeatFaces};
+use super::esdirk::{ESDIRK43, Esdirk};
 use super::flux::{self, FaceLaws, Surfaces};
-use super::method::{ConditionsAt, Method, TrBdf2};
+use super::method::{ConditionsAt, Method};
 use super::model::{self, Conditions, Model};
 use super::problem::{Air, FaceLaw, Problem};
 use super::state::State;
@@ -49,8 +50,9 @@ impl Exchanged {
 ///
 ///   dt_new = dt * clamp(safety * err^(-exponent), min_factor, max_factor)
 ///
-/// with exponent 1 / (p + 1) = 1/3 for TR-BDF2, whose error estimate is the local error of a
-/// second-order method (p = 2, error ~ dt^3): the step that would just meet the tolerance.
+/// with exponent 1 / (p + 1), p the order of the method's embedded pair (the error estimate is
+/// ~ dt^(p+1)): 1/4 for ESDIRK4(3), the step that would just meet the tolerance (set from
+/// [`Method::error_order`] when the stepper is built).
 /// A factor between 1 and `dead_zone` keeps dt as it is (no churn for a gain of a few per cent).
 /// Defaults and why: safety 0.9 (the usual margin, so the next step is rarely rejected), factors
 /// 0.2 and 5 (a firm cut after a rejection; fast growth from the tiny first step, which is
@@ -77,7 +79,7 @@ impl Default for Controller {
             min_factor: 0.2,
             max_factor: 5.0,
             dead_zone: 1.2,
-            exponent: 1.0 / 3.0,
+            exponent: 0.25,
         }
     }
 }
@@ -275,7 +277,8 @@ impl<'p> Stepper<'p> {
             step_index: 0,
             step_start: 0.0,
             model: model::for_problem(problem),
-            method: Box::new(TrBdf2::new(
+            method: Box::new(Esdirk::new(
+                &ESDIRK43,
                 problem,
                 if problem.thermal.is_some() { 2 } else { 1 },
             )),
@@ -286,6 +289,7 @@ impl<'p> Stepper<'p> {
             prev_t: 0.0,
             newton_cap: f64::INFINITY,
         };
+        s.controller.exponent = 1.0 / f64::from(s.method.error_order() + 1);
         s.restart_step_size();
         s
     }
@@ -383,8 +387,8 @@ impl<'p> Stepper<'p> {
     }
 
     /// The state at time `t` within the last accepted step, written into `out` (dense output,
-    /// so that output times never force a step): the method's interpolant (for TR-BDF2 the
-    /// quadratic through the step's start, its trapezoidal stage and its end). Outside the last
+    /// so that output times never force a step): the method's interpolant (the cubic Hermite
+    /// through the step's start and end with their slopes). Outside the last
     /// step, the nearest end.
     pub fn interpolate_into(&self, t: f64, out: &mut State) {
         let dt = self.t - self.prev_t;

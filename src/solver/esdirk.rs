@@ -1,0 +1,458 @@
+//! ESDIRK pairs (explicit first stage, singly diagonally implicit, stiffly accurate) behind the
+//! [`Method`] interface; the one in use is ESDIRK4(3)6L[2]SA ([`ESDIRK43`]).
+//!
+//! On the stored quantities U (water, and energy in coupled runs) with G their net inflow, stage
+//! i of a step of `dt` from y_n solves
+//!
+//!   U(Y_i) - gamma dt G(Y_i) = U(y_n) + dt sum_{j<i} a_ij G(Y_j),   Y_0 = y_n,
+//!
+//! every stage with the same matrix coefficient gamma dt (one kept elimination serves every stage
+//! of a linear problem). The methods are stiffly accurate (the last stage is the step's end, the
+//! weights b are the last row of A), so the end satisfies U(y_n+1) = U(y_n) + dt sum b_j G_j and
+//! the water (and energy) that crossed the faces, dt sum b_j R_j with the same weights, closes
+//! the balances as TR-BDF2's quadrature does. L-stable: no ringing after a sudden change of the
+//! surface.
+//!
+//! Error estimate: e = dt sum (b_j - bhat_j) G_j with the embedded weights bhat, in stored
+//! quantities, filtered by the stage matrix, (dU/dy - gamma dt dG/dy)^-1 e, as Hosea and
+//! Shampine advise for stiff problems ("Analysis and implementation of TR-BDF2", Appl. Numer.
+//! Math. 20, 1996): it turns the estimate into an error of the unknowns and damps the stiff
+//! components that the method damps itself (without the filter stiff diffusion modes would force
+//! tiny steps). The scaled error is the dry-mass weighted root mean square over cells of
+//! e / (tolerance x moisture scale) (and of the temperature errors against tolerance x
+//! temperature scale): it follows the water held, the figure a run reports, rather than the few
+//! thin cells at a surface, whose error early in a fixed-surface run would otherwise set every
+//! step. The step-size exponent is 1 / (embedded order + 1) = 1/4.
+//!
+//! Dense output: the cubic Hermite interpolant through the step's start and end with their
+//! slopes (fourth-order local error, below the third-order method's own), where the start slope
+//! is the previous step's end slope; after a jump of the conditions (no previous slope) the
+//! quadratic through start and end with the end slope, as TR-BDF2 uses. Both slopes are those
+//! of L-stable step ends, so stiff components are already damped in them.
+
+use super::flux::{NEWTON_FRACTION, NewtonFailure, NewtonSettings};
+use super::method::{Attempt, ConditionsAt, Method};
+use super::model::{Model, Rates};
+use super::problem::Problem;
+use super::state::State;
+use super::stepper::Exchanged;
+
+/// An ESDIRK pair: the strictly lower part of A row by row (stage 1 on; stage 0 is y_n), the
+/// diagonal gamma, the nodes c and the embedded weights bhat. b is the last row of A with gamma.
+#[derive(Debug)]
+pub struct Tableau {
+    /// Stages, the explicit first one included.
+    pub stages: usize,
+    /// The diagonal coefficient of every implicit stage.
+    pub gamma: f64,
+    /// a_ij for j < i, rows i = 1 .. stages - 1.
+    pub lower: &'static [&'static [f64]],
+    /// Stage times as fractions of the step, c_0 = 0 .. c_{s-1} = 1.
+    pub c: &'static [f64],
+    /// The embedded method's weights.
+    pub b_hat: &'static [f64],
+    /// Order of the embedded method (the error estimate is O(dt^(this + 1))).
+    pub embedded_order: u32,
+}
+
+impl Tableau {
+    /// The weights b_j of the main method (the last row of A, gamma on the diagonal).
+    pub fn b(&self, j: usize) -> f64 {
+        let last = self.lower[self.stages - 2];
+        if j + 1 == self.stages {
+            self.gamma
+        } else {
+            last[j]
+        }
+    }
+
+    /// a_ij with the diagonal (i, j >= 0).
+    pub fn a(&self, i: usize, j: usize) -> f64 {
+        if i == 0 || j > i {
+            0.0
+        } else if j == i {
+            self.gamma
+        } else {
+            self.lower[i - 1][j]
+        }
+    }
+}
+
+/// ESDIRK4(3)6L[2]SA: fourth order, five implicit stages, gamma 1/4, L-stable, stiffly
+/// accurate, stage order 2, with a third-order embedded pair (C.A. Kennedy and M.H. Carpenter,
+/// "Additive Runge-Kutta schemes for convection-diffusion-reaction equations", Appl. Numer. Math.
+/// 44 (2003) 139-181: the implicit table of ARK4(3)6L[2]SA). Its stability function stays >= 0
+/// on the whole negative real axis (checked in the tests below), so a decaying mode never steps
+/// past its equilibrium; TR-BDF2's goes down to -0.21 and ESDIRK3(2)4L[2]SA's to -0.13.
+pub static ESDIRK43: Tableau = Tableau {
+    stages: 6,
+    gamma: 0.25,
+    lower: &[
+        &[0.25],
+        &[8611.0 / 62500.0, -1743.0 / 31250.0],
+        &[
+            5_012_029.0 / 34_652_500.0,
+            -654_441.0 / 2_922_500.0,
+            174_375.0 / 388_108.0,
+        ],
+        &[
+            15_267_082_809.0 / 155_376_265_600.0,
+            -71_443_401.0 / 120_774_400.0,
+            730_878_875.0 / 902_184_768.0,
+            2_285_395.0 / 8_070_912.0,
+        ],
+        &[
+            82889.0 / 524_892.0,
+            0.0,
+            15625.0 / 83664.0,
+            69875.0 / 102_672.0,
+            -2260.0 / 8211.0,
+        ],
+    ],
+    c: &[0.0, 0.5, 83.0 / 250.0, 31.0 / 50.0, 17.0 / 20.0, 1.0],
+    b_hat: &[
+        4_586_570_599.0 / 29_645_900_160.0,
+        0.0,
+        178_811_875.0 / 945_068_544.0,
+        814_220_225.0 / 1_159_782_912.0,
+        -3_700_637.0 / 11_593_932.0,
+        61727.0 / 225_920.0,
+    ],
+    embedded_order: 3,
+};
+
+/// A stiffly accurate ESDIRK pair driven as a [`Method`].
+pub struct Esdirk {
+    table: &'static Tableau,
+    block: usize,
+    u0: Vec<f64>,
+    rhs: Vec<f64>,
+    /// Net inflow of every stage; `g[0]` is the step start's.
+    g: Vec<Vec<f64>>,
+    /// Face rates of every stage.
+    rates: Vec<Rates>,
+    g0_valid: bool,
+    g0_time: f64,
+    /// Stage states 1 .. s-1 (index 0 unused); the last is the attempt's end.
+    stage: Vec<State>,
+    /// The derivative of the unknowns at the start and at the end of the last attempt.
+    start_slope: State,
+    end_slope: State,
+    /// Whether the start slope continues the step before (no jump), so the cubic may use it.
+    start_smooth: bool,
+    /// dt times those slopes of the last accepted step, kept for dense output.
+    kept_start: State,
+    kept_end: State,
+    kept_cubic: bool,
+    err: Vec<f64>,
+    settings: NewtonSettings,
+    scale: [f64; 2],
+    weight: Vec<f64>,
+}
+
+impl Esdirk {
+    /// The pair `table` for `problem` with `block` unknowns per cell.
+    pub fn new(table: &'static Tableau, problem: &Problem, block: usize) -> Esdirk {
+        let n = problem.len();
+        let coupled = block == 2;
+        let nb = n * block;
+        let t_scale = problem
+            .thermal
+            .as_ref()
+            .map_or(1.0, |th| th.temperature_scale);
+        let scale = [
+            problem.tolerance * problem.moisture_scale,
+            problem.tolerance * t_scale,
+        ];
+        let s = table.stages;
+        Esdirk {
+            table,
+            block,
+            u0: vec![0.0; nb],
+            rhs: vec![0.0; nb],
+            g: vec![vec![0.0; nb]; s],
+            rates: vec![Rates::default(); s],
+            g0_valid: false,
+            g0_time: 0.0,
+            stage: (0..s).map(|_| State::zeros(n, coupled)).collect(),
+            start_slope: State::zeros(n, coupled),
+            end_slope: State::zeros(n, coupled),
+            start_smooth: false,
+            kept_start: State::zeros(n, coupled),
+            kept_end: State::zeros(n, coupled),
+            kept_cubic: false,
+            err: vec![0.0; nb],
+            settings: NewtonSettings {
+                tol: [NEWTON_FRACTION * scale[0], NEWTON_FRACTION * scale[1]],
+                linear: false,
+            },
+            scale,
+            weight: {
+                let total = problem.total_dry_mass();
+                problem.dry_mass.iter().map(|m| m / total).collect()
+            },
+        }
+    }
+
+    /// Newton's starting guess for stage `i`: for stage 1 the start's slope continued (only when
+    /// it continues the step before: after a jump the surface cells' slopes are huge), later
+    /// ones on the line through y_n and the stage before, at most twice as far.
+    fn predict(&mut self, i: usize, y: &State, dt: f64) {
+        let (done, rest) = self.stage.split_at_mut(i);
+        let guess = &mut rest[0];
+        guess.clone_from(y);
+        if i == 1 {
+            if self.start_smooth {
+                let f = self.table.c[1] * dt;
+                guess.update_with(y, &self.start_slope, |_, a, m| a + f * m);
+            }
+            return;
+        }
+        let f = (self.table.c[i] / self.table.c[i - 1]).min(2.0);
+        guess.update_with(y, &done[i - 1], |_, a, b| a + f * (b - a));
+    }
+}
+
+/// Rates times a length of time.
+fn over(r: Rates, dt: f64) -> Exchanged {
+    Exchanged {
+        water: r.water * dt,
+        convective: r.convective * dt,
+        latent: r.latent * dt,
+        energy_in: r.energy_in * dt,
+    }
+}
+
+/// Scales every value of `s` by `k`.
+fn scale_state(s: &mut State, k: f64) {
+    for v in s.moisture.iter_mut().chain(s.temperature.iter_mut()) {
+        *v *= k;
+    }
+}
+
+impl Method for Esdirk {
+    fn error_order(&self) -> u32 {
+        self.table.embedded_order
+    }
+
+    fn attempt(
+        &mut self,
+        model: &mut dyn Model,
+        conditions: &dyn ConditionsAt,
+        t: f64,
+        dt: f64,
+        y: &State,
+    ) -> Result<Attempt, NewtonFailure> {
+        let tab = self.table;
+        let s = tab.stages;
+        self.settings.linear = model.is_linear();
+        if !self.g0_valid || self.g0_time != t {
+            self.rates[0] = model.inflow(&conditions.at(t), y, &mut self.g[0]);
+            self.g0_valid = true;
+            self.g0_time = t;
+            self.start_smooth = false;
+        }
+        model.state_rates(y, &self.g[0], &mut self.start_slope);
+        model.conserved(y, &mut self.u0);
+        let mut iterations = 0;
+        for i in 1..s {
+            self.rhs.copy_from_slice(&self.u0);
+            for j in 0..i {
+                let a = tab.a(i, j) * dt;
+                if a != 0.0 {
+                    for (r, g) in self.rhs.iter_mut().zip(&self.g[j]) {
+                        *r += a * g;
+                    }
+                }
+            }
+            self.predict(i, y, dt);
+            let (r, it) = model.solve_stage(
+                &conditions.at(t + tab.c[i] * dt),
+                tab.gamma * dt,
+                &self.rhs,
+                &mut self.stage[i],
+                y,
+                &self.settings,
+            )?;
+            iterations += it;
+            self.rates[i] = r;
+            self.g[i].copy_from_slice(model.last_inflow());
+        }
+        model.state_rates(&self.stage[s - 1], &self.g[s - 1], &mut self.end_slope);
+        // Embedded error estimate, filtered by the stage matrix.
+        self.err.fill(0.0);
+        for j in 0..s {
+            let w = dt * (tab.b(j) - tab.b_hat[j]);
+            if w != 0.0 {
+                for (e, g) in self.err.iter_mut().zip(&self.g[j]) {
+                    *e += w * g;
+                }
+            }
+        }
+        if !model.filter(&mut self.err) {
+            return Err(NewtonFailure::Breakdown);
+        }
+        let mut sum = 0.0;
+        for (i, e) in self.err.iter().enumerate() {
+            let v = e / self.scale[i % self.block];
+            sum += self.weight[i / self.block] * v * v;
+        }
+        let error = sum.sqrt();
+        if !error.is_finite() {
+            return Err(NewtonFailure::Breakdown);
+        }
+        let mut rates = Rates::default();
+        for j in 0..s {
+            let (b, r) = (tab.b(j), self.rates[j]);
+            rates.water += b * r.water;
+            rates.convective += b * r.convective;
+            rates.latent += b * r.latent;
+            rates.energy_in += b * r.energy_in;
+        }
+        Ok(Attempt {
+            error,
+            exchanged: over(rates, dt),
+            newton_iterations: iterations,
+        })
+    }
+
+    fn candidate(&self) -> &State {
+        &self.stage[self.table.stages - 1]
+    }
+
+    fn candidate_slope(&self) -> &State {
+        &self.end_slope
+    }
+
+    fn accept(&mut self, state: &mut State, t_end: f64, dt: f64) {
+        let s = self.table.stages;
+        std::mem::swap(state, &mut self.stage[s - 1]);
+        // The end's inflow starts the next step (until the conditions jump).
+        self.g.swap(0, s - 1);
+        self.rates[0] = self.rates[s - 1];
+        self.g0_valid = true;
+        self.g0_time = t_end;
+        // Dense output keeps dt times the slopes.
+        self.kept_start.clone_from(&self.start_slope);
+        scale_state(&mut self.kept_start, dt);
+        std::mem::swap(&mut self.kept_end, &mut self.end_slope);
+        scale_state(&mut self.kept_end, dt);
+        self.kept_cubic = self.start_smooth;
+        self.start_smooth = true;
+    }
+
+    fn interpolate(&self, s: f64, start: &State, end: &State, out: &mut State) {
+        out.clone_from(end);
+        if self.kept_cubic {
+            // Cubic Hermite: start and end with dt times their slopes.
+            let (s2, s3) = (s * s, s * s * s);
+            let h00 = 2.0 * s3 - 3.0 * s2 + 1.0;
+            let h10 = s3 - 2.0 * s2 + s;
+            let h01 = -2.0 * s3 + 3.0 * s2;
+            let h11 = s3 - s2;
+            for (own, y0, m0, m1) in [
+                (
+                    &mut out.moisture,
+                    &start.moisture,
+                    &self.kept_start.moisture,
+                    &self.kept_end.moisture,
+                ),
+                (
+                    &mut out.temperature,
+                    &start.temperature,
+                    &self.kept_start.temperature,
+                    &self.kept_end.temperature,
+                ),
+            ] {
+                for (((o, y0), m0), m1) in own.iter_mut().zip(y0).zip(m0).zip(m1) {
+                    *o = h00 * y0 + h10 * m0 + h01 * *o + h11 * m1;
+                }
+            }
+        } else {
+            let (a, b) = (s * (2.0 - s), s * (s - 1.0));
+            out.update_with(start, &self.kept_end, |o, y0, sl| {
+                y0 + a * (o - y0) + b * sl
+            });
+        }
+    }
+
+    fn restart(&mut self) {
+        self.g0_valid = false;
+        self.start_smooth = false;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The order conditions up to order `p` for the weights `b` (Butcher trees up to order 4).
+    fn order_conditions(t: &Tableau, b: &dyn Fn(usize) -> f64, p: u32) -> Vec<f64> {
+        let s = t.stages;
+        let c = |i: usize| (0..s).map(|j| t.a(i, j)).sum::<f64>();
+        let ac = |i: usize| (0..s).map(|j| t.a(i, j) * c(j)).sum::<f64>();
+        let sum = |f: &dyn Fn(usize) -> f64| (0..s).map(|i| b(i) * f(i)).sum::<f64>();
+        let mut r = vec![sum(&|_| 1.0) - 1.0];
+        if p >= 2 {
+            r.push(sum(&c) - 0.5);
+        }
+        if p >= 3 {
+            r.push(sum(&|i| c(i) * c(i)) - 1.0 / 3.0);
+            r.push(sum(&ac) - 1.0 / 6.0);
+        }
+        if p >= 4 {
+            r.push(sum(&|i| c(i).powi(3)) - 0.25);
+            r.push(sum(&|i| c(i) * ac(i)) - 0.125);
+            r.push(sum(&|i| (0..s).map(|j| t.a(i, j) * c(j) * c(j)).sum::<f64>()) - 1.0 / 12.0);
+            r.push(sum(&|i| (0..s).map(|j| t.a(i, j) * ac(j)).sum::<f64>()) - 1.0 / 24.0);
+        }
+        r
+    }
+
+    #[test]
+    fn the_pairs_meet_their_order_conditions_and_their_nodes_are_the_row_sums() {
+        // The classical Runge-Kutta order conditions (Butcher trees up to order 4; e.g. Hairer,
+        // Norsett & Wanner, Solving ODEs I, 2nd ed., section II.2, Table 2.2).
+        for (t, p) in [(&ESDIRK43, 4)] {
+            for r in order_conditions(t, &|j| t.b(j), p) {
+                assert!(r.abs() < 1e-11, "main weights: residual {r}");
+            }
+            for r in order_conditions(t, &|j| t.b_hat[j], t.embedded_order) {
+                assert!(r.abs() < 1e-11, "embedded weights: residual {r}");
+            }
+            // The pair differs (otherwise the estimate would be zero).
+            assert!((0..t.stages).any(|j| (t.b(j) - t.b_hat[j]).abs() > 1e-3));
+            for i in 0..t.stages {
+                let row: f64 = (0..t.stages).map(|j| t.a(i, j)).sum();
+                assert!((row - t.c[i]).abs() < 1e-11, "c[{i}] = {} vs {row}", t.c[i]);
+            }
+        }
+    }
+
+    #[test]
+    fn the_stability_function_vanishes_at_infinity_and_never_turns_negative() {
+        // R(z) for y' = z y / dt: the stage values of one step from y = 1, solved row by row
+        // (y_0 = 1 explicit, y_i = 1 + z sum_{j<=i} a_ij y_j); stiffly accurate, so R is the
+        // last stage. L-stability
+        // (R -> 0 as z -> -inf) and R >= 0 on the negative real axis (no step past equilibrium).
+        let t = &ESDIRK43;
+        let r = |z: f64| {
+            let s = t.stages;
+            let mut y = vec![0.0; s];
+            y[0] = 1.0;
+            for i in 1..s {
+                let known: f64 = (0..i).map(|j| t.a(i, j) * y[j]).sum();
+                y[i] = (1.0 + z * known) / (1.0 - z * t.gamma);
+            }
+            y[s - 1]
+        };
+        assert!(r(-1e8).abs() < 1e-6, "R(-1e8) = {}", r(-1e8));
+        for k in 0..=800 {
+            let z = -(10f64.powf(-2.0 + 10.0 * f64::from(k) / 800.0));
+            assert!(r(z) >= 0.0, "R({z}) = {}", r(z));
+        }
+        // And it follows exp(z) to fourth order for small steps.
+        let z = -1e-2;
+        assert!((r(z) - z.exp()).abs() < 1e-11, "{} vs {}", r(z), z.exp());
+    }
+}
