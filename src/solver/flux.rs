@@ -724,7 +724,7 @@ pub fn solve_stage(
             }
             ws.factored_for = settings.linear.then_some(key);
         }
-        if !ws.factors.solve(&ws.lower, &mut ws.rhs) {
+        if !ws.factors.solve(&mut ws.rhs) {
             return Err(NewtonFailure::Breakdown);
         }
         ws.linear_solves += 1;
@@ -761,5 +761,5 @@ fn add_far_face_terms(ws: &mut Workspace, areas: &[f64], c_dt: f64) {
 /// in water held (kg per unit normalised area per cell) into a moisture error, damping the stiff
 /// components as the implicit stages do.
 pub fn filter(ws: &mut Workspace, v: &mut [f64]) -> bool {
-    ws.factors.solve(&ws.lower, v)
+    ws.factors.solve(v)
 }

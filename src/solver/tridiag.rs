@@ -12,6 +12,9 @@ pub struct Factors {
     eliminated: Vec<f64>,
     /// The reciprocal pivots.
     inverse: Vec<f64>,
+    /// `lower[i] / pivot[i]`: the forward sweep's multiplier, so that its dependency chain is one
+    /// multiply and one subtract per row (the sweep is latency-bound).
+    scaled_lower: Vec<f64>,
 }
 
 impl Factors {
@@ -20,6 +23,7 @@ impl Factors {
         Factors {
             eliminated: vec![0.0; n],
             inverse: vec![0.0; n],
+            scaled_lower: vec![0.0; n],
         }
     }
 
@@ -35,6 +39,7 @@ impl Factors {
             return false;
         }
         self.inverse[0] = inverse;
+        self.scaled_lower[0] = 0.0;
         for i in 1..n {
             let e = upper[i - 1] * inverse;
             self.eliminated[i] = e;
@@ -43,26 +48,28 @@ impl Factors {
                 return false;
             }
             self.inverse[i] = inverse;
+            self.scaled_lower[i] = lower[i] * inverse;
         }
         true
     }
 
-    /// Solves in place with the factored matrix (`lower` as given to [`Factors::factor`]).
-    /// Returns `false` when the result is not finite.
-    pub fn solve(&self, lower: &[f64], rhs: &mut [f64]) -> bool {
+    /// Solves in place with the factored matrix. Returns `false` when the result is not finite.
+    pub fn solve(&self, rhs: &mut [f64]) -> bool {
         let n = rhs.len();
         if n == 0 {
             return true;
         }
         rhs[0] *= self.inverse[0];
         for i in 1..n {
-            rhs[i] = (rhs[i] - lower[i] * rhs[i - 1]) * self.inverse[i];
+            rhs[i] = rhs[i] * self.inverse[i] - self.scaled_lower[i] * rhs[i - 1];
         }
         for i in (0..n - 1).rev() {
             rhs[i] -= self.eliminated[i + 1] * rhs[i + 1];
         }
-        // A sum is finite only when every term is (and vectorises, unlike a test per value).
-        rhs.iter().sum::<f64>().is_finite()
+        // Every value feeds the next in the forward sweep and the one before in the backward
+        // sweep (a NaN or infinity stays non-finite through any product or difference, even with
+        // a zero factor), so the first value is finite only when all are.
+        rhs[0].is_finite()
     }
 }
 
@@ -85,9 +92,25 @@ mod tests {
         ];
         let mut factors = Factors::new(4);
         assert!(factors.factor(&lower, &diag, &upper));
-        assert!(factors.solve(&lower, &mut b));
+        assert!(factors.solve(&mut b));
         for (a, e) in b.iter().zip(x) {
             assert!((a - e).abs() < 1e-14);
+        }
+    }
+
+    #[test]
+    fn reports_a_non_finite_value_anywhere_in_the_right_hand_side() {
+        let lower = [0.0, -1.0, 0.0, -1.0];
+        let diag = [4.0; 4];
+        let upper = [-1.0, 0.0, -1.0, 0.0];
+        let mut factors = Factors::new(4);
+        assert!(factors.factor(&lower, &diag, &upper));
+        for bad in [f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+            for at in 0..4 {
+                let mut b = [1.0; 4];
+                b[at] = bad;
+                assert!(!factors.solve(&mut b), "{bad} at {at} not reported");
+            }
         }
     }
 
