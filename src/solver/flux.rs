@@ -629,9 +629,9 @@ impl Contraction {
 /// when the guess gives non-finite values). The face derivatives are reused from an earlier
 /// evaluation while the iteration contracts well (modified Newton) and refreshed when it does
 /// not. The iteration stops when the estimated error of the iterate, `rate / (1 - rate)` times
-/// the last update, is below `settings.tol` (linear stages stop after one update), and the
-/// faces are then evaluated at the final iterate: so `ws.inflow` and the returned surfaces belong
-/// to the state returned, and water leaving through the faces matches the change of water held
+/// the last update, is below `settings.tol` (linear stages stop after one update, their inflow
+/// taken from the stage equation), and the faces are then evaluated at the final iterate: so
+/// `ws.inflow` and the returned surfaces belong to the state returned, and water leaving through the faces matches the change of water held
 /// up to the faces' own nonlinearity over the last (tiny) update.
 #[allow(clippy::too_many_arguments)]
 pub fn solve_stage(
@@ -733,6 +733,17 @@ pub fn solve_stage(
             *d = *r;
             *v += r;
             update = update.max(r.abs());
+        }
+        if settings.linear {
+            // One update solves a linear stage, so the stage equation gives the inflow at the
+            // solution, G = (m x - b) / c_dt, without evaluating the interior faces again (it
+            // enters every later use multiplied by a time step, so its round-off does too); the
+            // exposed faces, closed forms, are evaluated at the solution for their rates.
+            for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x.iter())).zip(b) {
+                *g = (m * v - bi) / c_dt;
+            }
+            let surfaces = exposed_surfaces(problem, laws, t_c, x, ws);
+            return Ok((surfaces, iteration + 1));
         }
         let refresh;
         (converged, refresh) =
