@@ -662,12 +662,20 @@ pub fn solve_stage(
             ws.jacobian_evaluations += 1;
         }
         let mut worst: f64 = 0.0;
-        for i in 0..n {
-            let inflow = areas[i] * ws.flux[i] - areas[i + 1] * ws.flux[i + 1];
-            ws.inflow[i] = inflow;
-            let r = mass[i] * x[i] - b[i] - c_dt * inflow;
-            worst = worst.max((r / mass[i]).abs());
-            ws.rhs[i] = -r;
+        // Zipped slices of one length: no bounds checks in the loop.
+        let cells = ws
+            .inflow
+            .iter_mut()
+            .zip(ws.rhs.iter_mut())
+            .zip(areas[..n].iter().zip(&areas[1..=n]))
+            .zip(ws.flux[..n].iter().zip(&ws.flux[1..=n]))
+            .zip(mass.iter().zip(x.iter()).zip(b));
+        for ((((g, rhs), (a_in, a_out)), (f_in, f_out)), ((&m, &xi), &bi)) in cells {
+            let inflow = a_in * f_in - a_out * f_out;
+            *g = inflow;
+            let r = m * xi - bi - c_dt * inflow;
+            worst = worst.max((r / m).abs());
+            *rhs = -r;
         }
         if !worst.is_finite() {
             if iteration == 0 && !restarted {

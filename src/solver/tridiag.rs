@@ -59,12 +59,27 @@ impl Factors {
         if n == 0 {
             return true;
         }
-        rhs[0] *= self.inverse[0];
-        for i in 1..n {
-            rhs[i] = rhs[i] * self.inverse[i] - self.scaled_lower[i] * rhs[i - 1];
+        // Slices of the same length, so that the loops run without bounds checks.
+        let (inverse, scaled_lower, eliminated) = (
+            &self.inverse[..n],
+            &self.scaled_lower[..n],
+            &self.eliminated[..n],
+        );
+        let mut previous = rhs[0] * inverse[0];
+        rhs[0] = previous;
+        for ((r, &inv), &sl) in rhs.iter_mut().zip(inverse).zip(scaled_lower).skip(1) {
+            previous = *r * inv - sl * previous;
+            *r = previous;
         }
-        for i in (0..n - 1).rev() {
-            rhs[i] -= self.eliminated[i + 1] * rhs[i + 1];
+        let mut next = previous;
+        // Row i takes eliminated[i + 1] times row i + 1.
+        for (r, &e) in rhs[..n - 1]
+            .iter_mut()
+            .rev()
+            .zip(eliminated[1..].iter().rev())
+        {
+            next = *r - e * next;
+            *r = next;
         }
         // Every value feeds the next in the forward sweep and the one before in the backward
         // sweep (a NaN or infinity stays non-finite through any product or difference, even with
