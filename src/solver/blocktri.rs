@@ -51,28 +51,43 @@ pub fn solve_in_place(
     let Some(inv) = inverse(&diag[0]) else {
         return false;
     };
-    scratch[0] = mul(&inv, &upper[0]);
-    rhs[0] = mul_vec(&inv, rhs[0]);
-    for i in 1..n {
-        let lc = mul(&lower[i], &scratch[i - 1]);
-        let pivot = [
-            diag[i][0] - lc[0],
-            diag[i][1] - lc[1],
-            diag[i][2] - lc[2],
-            diag[i][3] - lc[3],
-        ];
+    // The running eliminated block and right-hand side stay in registers; zipped slices run
+    // without bounds checks.
+    let mut carried = mul(&inv, &upper[0]);
+    let mut value = mul_vec(&inv, rhs[0]);
+    scratch[0] = carried;
+    rhs[0] = value;
+    let rows = rhs
+        .iter_mut()
+        .zip(scratch.iter_mut())
+        .zip(lower.iter().zip(diag).zip(upper))
+        .skip(1);
+    for ((r, s), ((l, d), u)) in rows {
+        let lc = mul(l, &carried);
+        let pivot = [d[0] - lc[0], d[1] - lc[1], d[2] - lc[2], d[3] - lc[3]];
         let Some(inv) = inverse(&pivot) else {
             return false;
         };
-        scratch[i] = mul(&inv, &upper[i]);
-        let ld = mul_vec(&lower[i], rhs[i - 1]);
-        rhs[i] = mul_vec(&inv, [rhs[i][0] - ld[0], rhs[i][1] - ld[1]]);
+        carried = mul(&inv, u);
+        *s = carried;
+        let ld = mul_vec(l, value);
+        value = mul_vec(&inv, [r[0] - ld[0], r[1] - ld[1]]);
+        *r = value;
     }
-    for i in (0..n - 1).rev() {
-        let cu = mul_vec(&scratch[i], rhs[i + 1]);
-        rhs[i] = [rhs[i][0] - cu[0], rhs[i][1] - cu[1]];
+    // Row i takes scratch[i] times row i + 1.
+    for (r, s) in rhs[..n - 1]
+        .iter_mut()
+        .rev()
+        .zip(scratch[..n - 1].iter().rev())
+    {
+        let cu = mul_vec(s, value);
+        value = [r[0] - cu[0], r[1] - cu[1]];
+        *r = value;
     }
-    rhs.iter().all(|v| v[0].is_finite() && v[1].is_finite())
+    // Every value feeds the last row on the way down and the first on the way back (a NaN or
+    // infinity stays non-finite through any product or sum, even with zero factors), so the
+    // first row is finite only when all are.
+    rhs[0][0].is_finite() && rhs[0][1].is_finite()
 }
 
 #[cfg(test)]
@@ -111,6 +126,41 @@ mod tests {
         ));
         for (a, e) in rhs.iter().zip(&u) {
             assert!((a[0] - e[0]).abs() < 1e-13 && (a[1] - e[1]).abs() < 1e-13);
+        }
+    }
+
+    #[test]
+    fn reports_a_non_finite_value_anywhere() {
+        let n = 5;
+        let diag: Vec<Block> = (0..n).map(|_| [4.0, 0.5, 0.5, 4.0]).collect();
+        let lower: Vec<Block> = (0..n)
+            .map(|i| {
+                if i == 2 {
+                    [0.0; 4]
+                } else {
+                    [-1.0, 0.0, 0.0, -1.0]
+                }
+            })
+            .collect();
+        let upper: Vec<Block> = (0..n)
+            .map(|i| {
+                if i == 1 {
+                    [0.0; 4]
+                } else {
+                    [-1.0, 0.0, 0.0, -1.0]
+                }
+            })
+            .collect();
+        for bad in [f64::NAN, f64::INFINITY] {
+            for at in 0..2 * n {
+                let mut rhs = vec![[1.0, 1.0]; n];
+                rhs[at / 2][at % 2] = bad;
+                let mut scratch = vec![[0.0; 4]; n];
+                assert!(
+                    !solve_in_place(&lower, &diag, &upper, &mut rhs, &mut scratch),
+                    "{bad} at {at} not reported"
+                );
+            }
         }
     }
 
