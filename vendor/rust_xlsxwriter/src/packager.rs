@@ -133,16 +133,29 @@ impl<W: Write + Send> Packager<W> {
         // generally the largest files, and threading can help performance if
         // there are multiple large worksheets. We don't do this in "constant
         // memory" mode because the cell data is already written to disk.
+        //
+        // Patched (see PATCHES.md): a small workbook is assembled on this
+        // thread. Starting a thread costs more than assembling a small
+        // worksheet, and a program that writes many small workbooks at once
+        // is better served by its own threads.
         #[cfg(not(target_arch = "wasm32"))]
-        thread::scope(|scope| {
+        if Self::cell_count(workbook) < Self::THREADED_CELLS {
             for worksheet in &mut workbook.worksheets {
                 if !worksheet.use_constant_memory {
-                    scope.spawn(|| {
-                        worksheet.assemble_xml_file();
-                    });
+                    worksheet.assemble_xml_file();
                 }
             }
-        });
+        } else {
+            thread::scope(|scope| {
+                for worksheet in &mut workbook.worksheets {
+                    if !worksheet.use_constant_memory {
+                        scope.spawn(|| {
+                            worksheet.assemble_xml_file();
+                        });
+                    }
+                }
+            });
+        }
 
         // For wasm targets  we don't use threading.
         #[cfg(target_arch = "wasm32")]
@@ -233,6 +246,21 @@ impl<W: Write + Send> Packager<W> {
     // -----------------------------------------------------------------------
     // Internal functions/methods.
     // -----------------------------------------------------------------------
+
+    // Patched (see PATCHES.md): below this many cells in all, the worksheets
+    // are assembled one after the other on the calling thread.
+    #[cfg(not(target_arch = "wasm32"))]
+    const THREADED_CELLS: usize = 50_000;
+
+    // Patched (see PATCHES.md): the cells held in memory by all worksheets.
+    #[cfg(not(target_arch = "wasm32"))]
+    fn cell_count(workbook: &Workbook) -> usize {
+        workbook
+            .worksheets
+            .iter()
+            .map(Worksheet::cell_count)
+            .sum()
+    }
 
     // Write the [Content_Types].xml file.
     fn write_content_types_file(&mut self, options: &PackagerOptions) -> Result<(), XlsxError> {

@@ -17389,6 +17389,11 @@ impl Worksheet {
         }
     }
 
+    // Patched (see PATCHES.md): the number of cells held in memory.
+    pub(crate) fn cell_count(&self) -> usize {
+        self.data_table.values().map(BTreeMap::len).sum()
+    }
+
     // Return a range of data from a worksheet to use as cache data in a chart
     // file. If the range doesn't contain string/number data then we return a
     // default struct with an empty cache.
