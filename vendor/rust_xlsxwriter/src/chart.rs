@@ -4129,11 +4129,15 @@ impl Chart {
         self.write_pt_count(cache.data.len());
 
         // Write the c:pt elements.
+        // Patched (see PATCHES.md): a number or date cache holds only the text
+        // of numbers (`f64::to_string`, which parses back), so its values are
+        // not parsed again one by one.
+        let numeric = cache.cache_type != ChartRangeCacheDataType::String;
         for (index, value) in cache.data.iter().enumerate() {
             if !value.is_empty() {
                 // Non numeric values in value/number caches are treated as zero
                 // by Excel.
-                if value.parse::<f64>().is_err() {
+                if !numeric && value.parse::<f64>().is_err() {
                     self.write_pt(index, "0");
                 } else {
                     self.write_pt(index, value);
@@ -4218,12 +4222,22 @@ impl Chart {
     }
 
     // Write the <c:pt> element.
+    //
+    // Patched (see PATCHES.md): the same bytes, written in pieces.
     fn write_pt(&mut self, index: usize, value: &str) {
-        let attributes = [("idx", index.to_string())];
+        let mut digits = [0u8; 20];
+        let index = decimal_digits(&mut digits, index);
 
-        xml_start_tag(&mut self.writer, "c:pt", &attributes);
-        xml_data_element_only(&mut self.writer, "c:v", value);
-        xml_end_tag(&mut self.writer, "c:pt");
+        crate::xmlwriter::write_parts(
+            &mut self.writer,
+            &[
+                "<c:pt idx=\"",
+                index,
+                "\"><c:v>",
+                &crate::xmlwriter::escape_xml_data(value),
+                "</c:v></c:pt>",
+            ],
+        );
     }
 
     // Write both <c:axId> elements.
@@ -18183,4 +18197,19 @@ impl ChartLayout {
             || self.width.is_some()
             || self.height.is_some()
     }
+}
+
+// Patched (see PATCHES.md): the decimal digits of `n` in `buf`, as
+// `n.to_string()` gives them.
+fn decimal_digits(buf: &mut [u8; 20], mut n: usize) -> &str {
+    let mut start = buf.len();
+    loop {
+        start -= 1;
+        buf[start] = b'0' + (n % 10) as u8;
+        n /= 10;
+        if n == 0 {
+            break;
+        }
+    }
+    std::str::from_utf8(&buf[start..]).unwrap_or_default()
 }
