@@ -4226,7 +4226,7 @@ impl Chart {
     // Patched (see PATCHES.md): the same bytes, written in pieces.
     fn write_pt(&mut self, index: usize, value: &str) {
         let mut digits = [0u8; 20];
-        let index = decimal_digits(&mut digits, index);
+        let index = crate::xmlwriter::decimal_digits(&mut digits, index);
 
         crate::xmlwriter::write_parts(
             &mut self.writer,
@@ -18197,19 +18197,4 @@ impl ChartLayout {
             || self.width.is_some()
             || self.height.is_some()
     }
-}
-
-// Patched (see PATCHES.md): the decimal digits of `n` in `buf`, as
-// `n.to_string()` gives them.
-fn decimal_digits(buf: &mut [u8; 20], mut n: usize) -> &str {
-    let mut start = buf.len();
-    loop {
-        start -= 1;
-        buf[start] = b'0' + (n % 10) as u8;
-        n /= 10;
-        if n == 0 {
-            break;
-        }
-    }
-    std::str::from_utf8(&buf[start..]).unwrap_or_default()
 }

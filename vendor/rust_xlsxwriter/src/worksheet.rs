@@ -19646,6 +19646,30 @@ impl Worksheet {
         #[cfg(any(feature = "ryu", feature = "zmij"))]
         let number = buffer.format_finite(number);
 
+        // Patched (see PATCHES.md): with the number already text, the same
+        // bytes are written in pieces rather than through `write!`.
+        #[cfg(any(feature = "ryu", feature = "zmij"))]
+        {
+            let mut row_digits = [0u8; 20];
+            let row = crate::xmlwriter::decimal_digits(&mut row_digits, row as usize);
+            if xf_index > 0 {
+                let mut xf_digits = [0u8; 20];
+                let xf_index = crate::xmlwriter::decimal_digits(&mut xf_digits, xf_index as usize);
+                crate::xmlwriter::write_parts(
+                    writer,
+                    &[
+                        "<c r=\"", col_name, row, "\" s=\"", xf_index, "\"><v>", number, "</v></c>",
+                    ],
+                );
+            } else {
+                crate::xmlwriter::write_parts(
+                    writer,
+                    &["<c r=\"", col_name, row, "\"><v>", number, "</v></c>"],
+                );
+            }
+        }
+
+        #[cfg(not(any(feature = "ryu", feature = "zmij")))]
         if xf_index > 0 {
             write!(
                 writer,
@@ -19665,18 +19689,29 @@ impl Worksheet {
         string_index: u32,
         xf_index: u32,
     ) {
+        // Patched (see PATCHES.md): the same bytes, written in pieces.
+        let mut row_digits = [0u8; 20];
+        let row = crate::xmlwriter::decimal_digits(&mut row_digits, row as usize);
+        let mut string_digits = [0u8; 20];
+        let string_index =
+            crate::xmlwriter::decimal_digits(&mut string_digits, string_index as usize);
         if xf_index > 0 {
-            write!(
+            let mut xf_digits = [0u8; 20];
+            let xf_index = crate::xmlwriter::decimal_digits(&mut xf_digits, xf_index as usize);
+            crate::xmlwriter::write_parts(
                 writer,
-                r#"<c r="{col_name}{row}" s="{xf_index}" t="s"><v>{string_index}</v></c>"#
-            )
-            .expect(XML_WRITE_ERROR);
+                &[
+                    "<c r=\"", col_name, row, "\" s=\"", xf_index, "\" t=\"s\"><v>",
+                    string_index, "</v></c>",
+                ],
+            );
         } else {
-            write!(
+            crate::xmlwriter::write_parts(
                 writer,
-                r#"<c r="{col_name}{row}" t="s"><v>{string_index}</v></c>"#
-            )
-            .expect(XML_WRITE_ERROR);
+                &[
+                    "<c r=\"", col_name, row, "\" t=\"s\"><v>", string_index, "</v></c>",
+                ],
+            );
         }
     }
 

@@ -29,6 +29,21 @@ pub(crate) fn write_parts<W: Write>(writer: &mut W, parts: &[&str]) {
     }
 }
 
+// Patched (see PATCHES.md): the decimal digits of `n` in `buf`, as
+// `n.to_string()` gives them.
+pub(crate) fn decimal_digits(buf: &mut [u8; 20], mut n: usize) -> &str {
+    let mut start = buf.len();
+    loop {
+        start -= 1;
+        buf[start] = b'0' + (n % 10) as u8;
+        n /= 10;
+        if n == 0 {
+            break;
+        }
+    }
+    str::from_utf8(&buf[start..]).unwrap_or_default()
+}
+
 // Write the XML declaration for a file.
 pub(crate) fn xml_declaration<W: Write>(mut writer: W) {
     writer
