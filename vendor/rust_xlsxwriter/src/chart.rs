@@ -8687,7 +8687,7 @@ impl ChartRange {
             major_dim: data.len(),
             minor_dim: 1,
             cache_type,
-            data: data.iter().map(std::string::ToString::to_string).collect(),
+            data: std::sync::Arc::new(data.iter().map(std::string::ToString::to_string).collect()),
         };
         self
     }
@@ -8698,7 +8698,10 @@ pub(crate) struct ChartRangeCacheData {
     pub(crate) major_dim: usize,
     pub(crate) minor_dim: usize,
     pub(crate) cache_type: ChartRangeCacheDataType,
-    pub(crate) data: Vec<String>,
+    // Patched (see PATCHES.md): shared, so that the ranges of a chart that
+    // refer to the same cells (the categories of every series, say) share one
+    // cache instead of each holding a copy of every value.
+    pub(crate) data: std::sync::Arc<Vec<String>>,
 }
 
 impl ChartRangeCacheData {
@@ -8707,7 +8710,7 @@ impl ChartRangeCacheData {
             major_dim: 0,
             minor_dim: 0,
             cache_type: ChartRangeCacheDataType::None,
-            data: vec![],
+            data: std::sync::Arc::default(),
         }
     }
 

@@ -17451,7 +17451,7 @@ impl Worksheet {
             cache.cache_type = ChartRangeCacheDataType::MultiLevelString;
         }
 
-        cache.data = data;
+        cache.data = std::sync::Arc::new(data);
         cache
     }
 
