@@ -1381,6 +1381,40 @@ use crate::{
 #[cfg(feature = "enhanced_autofit")]
 use ssfmt::{FormatOptions, NumberFormat};
 
+// Patched (see PATCHES.md): the row and column options are looked up for
+// nearly every cell written, by row or column number. A multiplicative hash of
+// the number (the keys are not chosen by an attacker; `write_cols` sorts the
+// columns before writing them, so no output depends on the map's order) costs
+// much less than SipHash.
+type NumberMap<K, V> = HashMap<K, V, std::hash::BuildHasherDefault<NumberHasher>>;
+
+#[derive(Default)]
+struct NumberHasher(u64);
+
+impl std::hash::Hasher for NumberHasher {
+    fn finish(&self) -> u64 {
+        self.0
+    }
+
+    fn write(&mut self, bytes: &[u8]) {
+        for &byte in bytes {
+            self.write_u64(u64::from(byte));
+        }
+    }
+
+    fn write_u16(&mut self, n: u16) {
+        self.write_u64(u64::from(n));
+    }
+
+    fn write_u32(&mut self, n: u32) {
+        self.write_u64(u64::from(n));
+    }
+
+    fn write_u64(&mut self, n: u64) {
+        self.0 = (self.0.rotate_left(5) ^ n).wrapping_mul(0x517c_c1b7_2722_0a95);
+    }
+}
+
 use crate::drawing::{Drawing, DrawingCoordinates, DrawingInfo, DrawingObject, DrawingType};
 use crate::error::XlsxError;
 use crate::format::Format;
@@ -1561,8 +1595,8 @@ pub struct Worksheet {
     dxf_indices: HashMap<Format, u32>,
     global_xf_indices: Vec<u32>,
     global_dxf_indices: Vec<u32>,
-    changed_rows: HashMap<RowNum, RowOptions>,
-    changed_cols: HashMap<ColNum, ColOptions>,
+    changed_rows: NumberMap<RowNum, RowOptions>,
+    changed_cols: NumberMap<ColNum, ColOptions>,
     row_offset_checkpoints: [(RowNum, u32); 2],
     col_offset_checkpoints: [(ColNum, u32); 2],
     page_setup_changed: bool,
@@ -1774,8 +1808,8 @@ impl Worksheet {
             dxf_indices: HashMap::new(),
             global_xf_indices: vec![],
             global_dxf_indices: vec![],
-            changed_rows: HashMap::new(),
-            changed_cols: HashMap::new(),
+            changed_rows: NumberMap::default(),
+            changed_cols: NumberMap::default(),
             row_offset_checkpoints: [(0, 0); 2],
             col_offset_checkpoints: [(0, 0); 2],
             page_setup_changed: false,
@@ -19052,7 +19086,7 @@ impl Worksheet {
         // Swap out the worksheet data structures so we can iterate over them and
         // still call self.write_*() methods.
         let mut temp_table: BTreeMap<RowNum, BTreeMap<ColNum, CellType>> = BTreeMap::new();
-        let mut temp_changed_rows: HashMap<RowNum, RowOptions> = HashMap::new();
+        let mut temp_changed_rows: NumberMap<RowNum, RowOptions> = NumberMap::default();
         mem::swap(&mut temp_table, &mut self.data_table);
         mem::swap(&mut temp_changed_rows, &mut self.changed_rows);
 
@@ -19285,7 +19319,7 @@ impl Worksheet {
         // Swap out the worksheet data structures so we can iterate over them and
         // still call self.write_*() methods.
         let mut temp_table: BTreeMap<RowNum, BTreeMap<ColNum, CellType>> = BTreeMap::new();
-        let mut temp_changed_rows: HashMap<RowNum, RowOptions> = HashMap::new();
+        let mut temp_changed_rows: NumberMap<RowNum, RowOptions> = NumberMap::default();
         mem::swap(&mut temp_table, &mut self.data_table);
         mem::swap(&mut temp_changed_rows, &mut self.changed_rows);
 
