@@ -23,9 +23,9 @@
 use std::fmt;
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
-use std::process::{Child, ChildStdin, Command, Stdio};
+use std::process::{Child, Command, Stdio};
 use std::sync::atomic::{AtomicUsize, Ordering};
-use std::sync::mpsc::{Receiver, RecvTimeoutError};
+use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender};
 use std::sync::{Arc, Mutex};
 use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
@@ -147,7 +147,9 @@ impl ReaderPool {
 /// One running child.
 struct Server {
     child: Child,
-    stdin: Option<ChildStdin>,
+    /// Requests for the thread that writes to the child's standard input (dropping it closes
+    /// that input).
+    requests: Option<Sender<Vec<u8>>>,
     answers: Receiver<Answer>,
     threads: Vec<JoinHandle<()>>,
     stderr: Arc<Mutex<Vec<u8>>>,
@@ -180,9 +182,28 @@ impl Server {
             return Err(not_a_workbook("the reader process had no pipes"));
         };
         let (tx, answers) = std::sync::mpsc::channel();
+        let (requests, to_write) = std::sync::mpsc::channel::<Vec<u8>>();
         let kept = Arc::new(Mutex::new(Vec::new()));
         let kept_by_thread = Arc::clone(&kept);
         let threads = [
+            // Requests are written on a thread of their own, so the wall-clock limit holds
+            // while writing too: a child that dies or is killed closes its end, and the write
+            // ends with an error. One thread for the child's life rather than one per file
+            // (starting a thread cost about 1 % of a small workbook's batch time).
+            std::thread::Builder::new()
+                .name("reader-requests".into())
+                .spawn(move || {
+                    let mut stdin = stdin;
+                    for request in to_write {
+                        if stdin
+                            .write_all(&request)
+                            .and_then(|()| stdin.flush())
+                            .is_err()
+                        {
+                            break;
+                        }
+                    }
+                }),
             std::thread::Builder::new()
                 .name("reader-answers".into())
                 .spawn(move || {
@@ -207,7 +228,7 @@ impl Server {
         ];
         let mut server = Server {
             child,
-            stdin: Some(stdin),
+            requests: Some(requests),
             answers,
             threads: Vec::new(),
             stderr: kept,
@@ -226,26 +247,22 @@ impl Server {
     fn read(&mut self, exe: &Path, bytes: &[u8], ext: &str) -> (Result<RawBook, ReadError>, bool) {
         self.files += 1;
         let deadline = Instant::now() + Duration::from_secs(READER_WALL_SECS);
-        let Some(stdin) = self.stdin.as_mut() else {
+        let sent = match (self.requests.as_ref(), request(ext, bytes)) {
+            (Some(requests), Ok(request)) => requests.send(request).is_ok(),
+            _ => false,
+        };
+        if !sent {
             return (
                 Err(not_a_workbook("the reader process had no pipes")),
                 false,
             );
-        };
-        let answers = &self.answers;
-        let child = &mut self.child;
-        let got = std::thread::scope(|scope| {
-            // Written on a thread of its own, so the wall-clock limit holds while writing too;
-            // a child that dies or is killed closes its end and the write ends with an error.
-            scope.spawn(move || {
-                let _ = write_request(stdin, ext, bytes);
-            });
-            let got = answers.recv_timeout(deadline.saturating_duration_since(Instant::now()));
-            if matches!(got, Err(RecvTimeoutError::Timeout)) {
-                let _ = child.kill();
-            }
-            got
-        });
+        }
+        let got = self
+            .answers
+            .recv_timeout(deadline.saturating_duration_since(Instant::now()));
+        if matches!(got, Err(RecvTimeoutError::Timeout)) {
+            let _ = self.child.kill();
+        }
         match got {
             Ok(answer) => {
                 let fresh_enough = answer.cpu_ns <= READER_RECYCLE_CPU_SECS * 1_000_000_000
@@ -287,6 +304,8 @@ impl Server {
     }
 
     fn join_threads(&mut self) {
+        // The writer ends once it has no more requests to wait for.
+        drop(self.requests.take());
         for thread in self.threads.drain(..) {
             let _ = thread.join();
         }
@@ -295,23 +314,24 @@ impl Server {
 
 impl Drop for Server {
     fn drop(&mut self) {
-        drop(self.stdin.take());
+        drop(self.requests.take());
         let _ = self.child.kill();
         let _ = self.child.wait();
         self.join_threads();
     }
 }
 
-fn write_request(to: &mut ChildStdin, ext: &str, bytes: &[u8]) -> std::io::Result<()> {
+/// The request for one file: the extension's length, the extension, the file's length and its
+/// bytes.
+fn request(ext: &str, bytes: &[u8]) -> std::io::Result<Vec<u8>> {
     let ext = ext.as_bytes();
     let ext_len = u8::try_from(ext.len()).map_err(std::io::Error::other)?;
-    let mut head = Vec::with_capacity(1 + ext.len() + 8);
-    head.push(ext_len);
-    head.extend_from_slice(ext);
-    head.extend_from_slice(&(bytes.len() as u64).to_le_bytes());
-    to.write_all(&head)?;
-    to.write_all(bytes)?;
-    to.flush()
+    let mut request = Vec::with_capacity(1 + ext.len() + 8 + bytes.len());
+    request.push(ext_len);
+    request.extend_from_slice(ext);
+    request.extend_from_slice(&(bytes.len() as u64).to_le_bytes());
+    request.extend_from_slice(bytes);
+    Ok(request)
 }
 
 /// The next answer on a child's standard output; `None` at its end or on a cut-off answer.
