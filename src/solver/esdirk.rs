@@ -51,7 +51,9 @@ pub struct Tableau {
     pub c: &'static [f64],
     /// The embedded method's weights.
     pub b_hat: &'static [f64],
-    /// Order of the embedded method (the error estimate is O(dt^(this + 1))).
+    /// Order of the main method.
+    pub order: u32,
+    /// Order of the embedded method.
     pub embedded_order: u32,
 }
 
@@ -64,6 +66,11 @@ impl Tableau {
         } else {
             last[j]
         }
+    }
+
+    /// The error estimate is O(dt^(this + 1)): the lower of the two orders.
+    pub fn error_order(&self) -> u32 {
+        self.order.min(self.embedded_order)
     }
 
     /// a_ij with the diagonal (i, j >= 0).
@@ -118,6 +125,7 @@ pub static ESDIRK43: Tableau = Tableau {
         -3_700_637.0 / 11_593_932.0,
         61727.0 / 225_920.0,
     ],
+    order: 4,
     embedded_order: 3,
 };
 
@@ -232,7 +240,7 @@ fn scale_state(s: &mut State, k: f64) {
 
 impl Method for Esdirk {
     fn error_order(&self) -> u32 {
-        self.table.embedded_order
+        self.table.error_order()
     }
 
     fn attempt(
@@ -413,8 +421,8 @@ mod tests {
     fn the_pairs_meet_their_order_conditions_and_their_nodes_are_the_row_sums() {
         // The classical Runge-Kutta order conditions (Butcher trees up to order 4; e.g. Hairer,
         // Norsett & Wanner, Solving ODEs I, 2nd ed., section II.2, Table 2.2).
-        for (t, p) in [(&ESDIRK43, 4)] {
-            for r in order_conditions(t, &|j| t.b(j), p) {
+        for t in [&ESDIRK43] {
+            for r in order_conditions(t, &|j| t.b(j), t.order) {
                 assert!(r.abs() < 1e-11, "main weights: residual {r}");
             }
             for r in order_conditions(t, &|j| t.b_hat[j], t.embedded_order) {
