@@ -204,13 +204,15 @@ impl Scheduled<'_> {
         )
     }
 
-    /// The coupled faces' conditions for the water laws `laws` at time `t`.
+    /// The coupled faces' conditions for the water laws `laws` at time `t` (isothermal runs use
+    /// no heat coefficient, so none is worked out: it costs a power law per stage).
     fn heat_faces(&self, laws: &FaceLaws, t: f64) -> HeatFaces {
         let air = self.air_at(t);
         let h = self
             .problem
-            .steps
-            .get(self.step_index)
+            .thermal
+            .as_ref()
+            .and(self.problem.steps.get(self.step_index))
             .and_then(|step| self.problem.heat_coef(step, air))
             .unwrap_or(0.0);
         let face = |law: FaceLaw| HeatFace {
