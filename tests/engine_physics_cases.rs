@@ -181,6 +181,45 @@ fn a_moisture_trigger_switches_the_step_when_the_mean_crosses_it() {
 }
 
 #[test]
+fn a_step_whose_until_moisture_lies_past_its_equilibrium_says_so_and_runs_its_hours() {
+    // The surface is held at 10 %, so the mean only approaches 10 %: a step meant to end at 5 %
+    // cannot, and must run its 20 hours and say why.
+    let mut case = fixed_slab(Diffusivity::constant(1e-9), 40, 1e-4, 100.0 * 3600.0);
+    let mut first = Step::constant(25.0, Humidity::Unspecified, Exchange::FixedSurface(0.1));
+    first.label = "hold".into();
+    first.until_moisture = Some(0.05);
+    first.duration = Some(20.0 * 3600.0);
+    let mut second = Step::constant(25.0, Humidity::Unspecified, Exchange::FixedSurface(0.02));
+    second.label = "dry".into();
+    case.schedule = vec![first, second];
+    let r = run(&case);
+    let (t_switch, idx) = r.step_starts[1];
+    assert_eq!(idx, 1);
+    assert!(
+        (t_switch - 20.0 * 3600.0).abs() < 1e-6 * t_switch,
+        "{t_switch}"
+    );
+    assert!(
+        r.warnings.iter().any(|w| w.contains("step 1 (hold)")
+            && w.contains("until_moisture_pct 5.000 %")
+            && w.contains("(10.000 %)")),
+        "{:?}",
+        r.warnings
+    );
+    // A reachable level gives no such warning.
+    let mut case = fixed_slab(Diffusivity::constant(1e-9), 40, 1e-4, 100.0 * 3600.0);
+    let mut first = Step::constant(25.0, Humidity::Unspecified, Exchange::FixedSurface(0.1));
+    first.until_moisture = Some(0.3);
+    case.schedule = vec![first];
+    let r = run(&case);
+    assert!(
+        !r.warnings.iter().any(|w| w.contains("cannot end")),
+        "{:?}",
+        r.warnings
+    );
+}
+
+#[test]
 fn a_ramp_moves_the_air_linearly_over_its_step() {
     let mut m = Material::constant("m", 500.0, 1e-9);
     m.isotherm = Isotherm::Oswin { a: 0.1, b: 0.5 };

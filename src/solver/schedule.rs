@@ -200,7 +200,48 @@ impl ScheduleWalker {
             }
         }
         self.step_max = None;
+        self.warn_if_out_of_reach(p, stepper);
         self.set_triggers(p, stepper);
+    }
+
+    /// A step whose `until_moisture` lies past the equilibrium its air drives the body towards
+    /// cannot end on it (the trigger is not armed, see [`Self::set_triggers`]): said once, as
+    /// the step begins, so the user learns why it ran on.
+    fn warn_if_out_of_reach(&mut self, p: &Problem, stepper: &Stepper<'_>) {
+        let (index, _) = stepper.schedule_step();
+        let Some(step) = p.steps.get(index) else {
+            return;
+        };
+        let Some(level) = step.until_moisture else {
+            return;
+        };
+        if within_reach(p, step, p.mean(stepper.moisture()), level) {
+            return;
+        }
+        let equilibria: Vec<f64> = [step.from, step.to]
+            .into_iter()
+            .filter_map(|air| equilibrium_towards(p, step, air))
+            .map(|x| 100.0 * x)
+            .collect();
+        let lo = equilibria.iter().copied().fold(f64::INFINITY, f64::min);
+        let hi = equilibria.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let towards = if hi - lo <= 5e-4 {
+            format!("{lo:.3} %")
+        } else {
+            format!("{lo:.3} to {hi:.3} %")
+        };
+        let then = if step.duration.is_some() {
+            "it runs for its hours"
+        } else {
+            "it runs until the run ends"
+        };
+        self.warnings.push(format!(
+            "step {} ({}) cannot end on its until_moisture_pct {:.3} %: that lies past the \
+             equilibrium its air drives the product towards ({towards}); {then}",
+            index + 1,
+            step.label,
+            100.0 * level,
+        ));
     }
 }
 
