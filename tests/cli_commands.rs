@@ -131,7 +131,7 @@ fn an_interrupted_batch_exits_2_and_says_what_was_not_run() {
     for i in 0..3 {
         support::books::write_xlsx(
             &dir.path().join(format!("slow-{i}.xlsx")),
-            &support::books::slow_case("slow", 5000.0, 1e-8),
+            &support::books::slow_case("slow", 20000.0, 1e-10),
         );
     }
     let child = support::bin()

@@ -338,7 +338,7 @@ fn a_case_over_its_time_budget_stops_with_a_message_naming_the_option() {
     let dir = scratch();
     write_xlsx(
         &dir.path().join("slow.xlsx"),
-        &support::books::slow_case("slow", 5000.0, 1e-8),
+        &support::books::slow_case("slow", 20000.0, 1e-10),
     );
     let out = run_in(dir.path(), &["solve", "--case-seconds", "0.3", "slow.xlsx"]);
     let shown = output_text(&out);

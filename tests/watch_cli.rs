@@ -318,12 +318,12 @@ fn noise(len: usize) -> Vec<u8> {
 
 /// A case of a few seconds (see `books::slow_case`).
 fn slow_xlsx(path: &Path) {
-    books::write_xlsx(path, &books::slow_case("slow slab", 5000.0, 1e-8));
+    books::write_xlsx(path, &books::slow_case("slow slab", 20000.0, 1e-10));
 }
 
-/// A case that takes far longer than any test waits (more than 40 s on one idle core).
+/// A case that takes far longer than any test waits (about half a minute on one idle core).
 fn very_slow_xlsx(path: &Path) {
-    books::write_xlsx(path, &books::slow_case("very slow slab", 50000.0, 1e-10));
+    books::write_xlsx(path, &books::very_slow_case("very slow slab"));
 }
 
 #[test]
@@ -718,7 +718,7 @@ fn sigterm_abandons_a_case_that_outlasts_the_grace_time_and_exits_0_leaving_noth
     let (status, took) = watcher.wait_exit(PATIENCE);
     assert_eq!(status.code(), Some(0), "{}", watcher.log_text());
     // The grace time of 1 s, then a short wait for the solver to see the cancel flag
-    // (CANCEL_WAIT, 2 s); the case itself would need well over 40 s.
+    // (CANCEL_WAIT, 2 s); the case itself would need about half a minute.
     assert!(
         took < Duration::from_secs(15),
         "exit took {took:?}\n{}",

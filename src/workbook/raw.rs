@@ -92,7 +92,7 @@ impl RawValue {
     pub fn describe(&self) -> String {
         match self {
             RawValue::Empty => String::from("an empty cell"),
-            RawValue::Number(x) => format!("{x}"),
+            RawValue::Number(x) => crate::text::as_typed(*x),
             RawValue::Text(s) => format!("\"{}\"", s.trim()),
             RawValue::Bool(true) => String::from("TRUE"),
             RawValue::Bool(false) => String::from("FALSE"),

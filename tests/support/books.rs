@@ -259,11 +259,22 @@ pub fn rich_case() -> Vec<Sheet> {
 }
 
 /// [`series_case`] on a fine mesh with a tight step tolerance, so that one run takes seconds
-/// (about 2 s for 5000 cells at 1e-8 on one idle core of the development machine; 50,000
-/// cells at 1e-10 take over a minute).
+/// (about 2.6 s for 20,000 cells at 1e-10 on one idle core of the development machine in
+/// December 2026; see [`very_slow_case`] for one that outlasts any test's wait).
 pub fn slow_case(title: &'static str, cells: f64, tolerance: f64) -> Vec<Sheet> {
     let mut sheets = series_case(title);
     sheets[0].1.push(vec![V::T("cells_per_layer"), V::N(cells)]);
     sheets[0].1.push(vec![V::T("tolerance"), V::N(tolerance)]);
+    sheets
+}
+
+/// The slowest case the input limits allow of [`series_case`]: 100,000 cells (50,000 per half),
+/// tolerance 1e-10, and a diffusivity that rises with moisture (moisture_coef 3), so every stage
+/// takes several Newton iterations (about half a minute on one idle core in December 2026).
+pub fn very_slow_case(title: &'static str) -> Vec<Sheet> {
+    let mut sheets = slow_case(title, 50000.0, 1e-10);
+    let materials = &mut sheets[2].1;
+    materials[0].push(V::T("moisture_coef"));
+    materials[1].push(V::N(3.0));
     sheets
 }
