@@ -331,6 +331,27 @@ fn a_vanishing_end_time_or_tolerance_is_refused() {
     write_csv(&dir.path().join("tight.csv"), &case);
     let lines = refused(dir.path(), "tight.csv", "tolerance");
     assert!(lines.iter().any(|l| l.starts_with("case|B8|")), "{lines:?}");
+    // A moisture_coef that carries D at the initial moisture past vapour in air is refused at
+    // its cell, not left to crawl: 5e-10 exp(40 x 0.6) = 13 m2/s.
+    let mut case = series_case("fast");
+    case[2].1[0].push(V::T("moisture_coef"));
+    case[2].1[1].push(V::N(40.0));
+    write_csv(&dir.path().join("fast.csv"), &case);
+    let lines = refused(dir.path(), "fast.csv", "moisture_coef 40 gives D = 1.3");
+    // (a CSV case counts its rows through the file: the material row is line 13)
+    assert!(
+        lines.iter().any(|l| l.starts_with("materials|D13|")),
+        "{lines:?}"
+    );
+    // The ends of the range the message gives both run ("from 1e-10 to 0.1").
+    for (name, tol) in [("loosest", 0.1), ("tightest", 1e-10)] {
+        let mut case = series_case("ends");
+        case[0].1.push(vec![V::T("tolerance"), V::N(tol)]);
+        let file = format!("{name}.csv");
+        write_csv(&dir.path().join(&file), &case);
+        let out = run_in(dir.path(), &["solve", &file]);
+        assert_eq!(out.status.code(), Some(0), "{}", output_text(&out));
+    }
 }
 
 #[test]

@@ -236,7 +236,7 @@ fn check_settings(case: &Case, c: &mut Checker) {
         "flow_length_mm",
         case.flow_length,
     );
-    if !(case.tolerance.is_finite() && case.tolerance >= 1e-10 && case.tolerance < 0.1) {
+    if !(case.tolerance.is_finite() && case.tolerance >= 1e-10 && case.tolerance <= 0.1) {
         c.push(
             Place::Case("tolerance"),
             format!(
@@ -386,6 +386,28 @@ fn check_materials(case: &Case, c: &mut Checker) {
                 "moisture_coef beyond +-100 per unit moisture makes D vary by more than e^100; \
                  check the units (per dry-basis fraction)",
             );
+        } else if d.moisture_coef.is_finite() && d.d_ref > 0.0 {
+            // The diffusivity a layer starts with, not only the one at the reference moisture:
+            // a moisture_coef can carry it past the plausible range (as for d_ref above).
+            for layer in case.layers.iter().filter(|l| l.material == i) {
+                let factor = d.moisture_coef * (layer.initial_moisture - d.x_ref);
+                let at_start = d.d_ref * factor.exp();
+                if factor.is_finite() && (at_start > ranges::D_REF.1 || at_start.is_nan()) {
+                    c.push(
+                        at("moisture_coef"),
+                        format!(
+                            "moisture_coef {} gives D = {at_start:.3e} m2/s at the initial \
+                             moisture of layer '{}' ({} %), above {:e} m2/s (faster than vapour \
+                             in air); check the units (per dry-basis fraction) and \
+                             d_ref_moisture_pct",
+                            shown(d.moisture_coef),
+                            layer.name,
+                            shown(100.0 * layer.initial_moisture),
+                            ranges::D_REF.1,
+                        ),
+                    );
+                }
+            }
         }
         for msg in m.isotherm.validate() {
             c.push(at("isotherm"), msg);
