@@ -246,7 +246,10 @@ fn scale_state(s: &mut State, k: f64) {
 /// A long step over a fast decay has a start slope many times the change (a mode e^(-5) down over
 /// the step starts at 5 times it), and the plain cubic would swing past the step's end, below an
 /// equilibrium the steps themselves never cross; limited, it stays between the ends. A slope
-/// against the change (a turning point inside the step) is kept as it is.
+/// against the change (the value turns inside the step, as in early condensation on a cold
+/// product) is kept as it is, so a peak inside the step still shows above both ends; the other
+/// slope is still limited, which keeps a value rising from rest (a slope of about zero, or a
+/// little against the change by round-off) from dipping below where it started.
 fn monotone_hermite(s: f64, y0: f64, y1: f64, m0: f64, m1: f64) -> f64 {
     let change = y1 - y0;
     let limit = |m: f64| {
@@ -471,6 +474,16 @@ mod tests {
             let s = f64::from(i) / 100.0;
             let v = monotone_hermite(s, y0, y1, m0, m1);
             assert!(v >= y1 - 1e-15 && v <= y0 + 1e-15, "s {s}: {v}");
+        }
+        // A turning point inside the step (the end slope against the change) still shows a
+        // peak above both ends.
+        assert!(monotone_hermite(0.5, 0.0, 0.1, 1.0, -0.5) > 0.1);
+        // A value rising from rest over a long step (start slope about zero, end slope ten
+        // times the change) never dips below its start; the plain cubic would, to -0.5 x 0.1.
+        for i in 0..=100 {
+            let s = f64::from(i) / 100.0;
+            let v = monotone_hermite(s, 0.0, 0.1, -1e-12, 1.0);
+            assert!(v >= -1e-12 && v <= 0.1, "s {s}: {v}");
         }
         // A smooth change keeps the full cubic, within its error bound max|y(4)| dt^4 / 384
         // (2.6e-7 for e^(-0.1 t) over a unit step).
