@@ -483,7 +483,7 @@ mod tests {
         for i in 0..=100 {
             let s = f64::from(i) / 100.0;
             let v = monotone_hermite(s, 0.0, 0.1, -1e-12, 1.0);
-            assert!(v >= -1e-12 && v <= 0.1, "s {s}: {v}");
+            assert!((-1e-12..=0.1).contains(&v), "s {s}: {v}");
         }
         // A smooth change keeps the full cubic, within its error bound max|y(4)| dt^4 / 384
         // (2.6e-7 for e^(-0.1 t) over a unit step).
