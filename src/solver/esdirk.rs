@@ -8,10 +8,9 @@
 //!
 //! every stage with the same matrix coefficient gamma dt (one kept elimination serves every stage
 //! of a linear problem). The methods are stiffly accurate (the last stage is the step's end, the
-//! weights b are the last row of A), so the end satisfies U(y_n+1) = U(y_n) + dt sum b_j G_j and
-//! the water (and energy) that crossed the faces, dt sum b_j R_j with the same weights, closes
-//! the balances as TR-BDF2's quadrature does. L-stable: no ringing after a sudden change of the
-//! surface.
+//! weights b are the last row of A), so the end satisfies U(y_n+1) = U(y_n) + dt sum b_j G_j, and
+//! the water (and energy) that crossed the faces, integrated as dt sum b_j R_j with the same
+//! weights, closes the balances. L-stable: no ringing after a sudden change of the surface.
 //!
 //! Error estimate: e = dt sum (b_j - bhat_j) G_j with the embedded weights bhat, in stored
 //! quantities, filtered by the stage matrix, (dU/dy - gamma dt dG/dy)^-1 e, as Hosea and
@@ -22,14 +21,15 @@
 //! e / (tolerance x moisture scale) (and of the temperature errors against tolerance x
 //! temperature scale): it follows the water held, the figure a run reports, rather than the few
 //! thin cells at a surface, whose error early in a fixed-surface run would otherwise set every
-//! step. The step-size exponent is 1 / (embedded order + 1) = 1/4.
+//! step. The step-size exponent is 1 / (the estimate's order + 1), 1/4 for ESDIRK4(3).
 //!
 //! Dense output: the cubic Hermite interpolant through the step's start and end with their
-//! slopes (fourth-order local error, below the third-order method's own), where the start slope
-//! is the previous step's end slope, limited where a slope is steeper than three times the
-//! step's change so that it never swings past the step's ends ([`monotone_hermite`]); after a jump of the conditions (no previous slope) the
-//! quadratic through start and end with the end slope, as TR-BDF2 uses. Both slopes are those
-//! of L-stable step ends, so stiff components are already damped in them.
+//! slopes (fourth-order local error), where the start slope is the previous step's end slope,
+//! each slope limited to three times the step's change where it points the way the value moves,
+//! so that a long step over a fast decay does not swing past its ends ([`monotone_hermite`]).
+//! After a jump of the conditions (no smooth start slope) it is the quadratic through start and
+//! end with the end slope. Both slopes are those of L-stable step ends, so stiff components are
+//! already damped in them.
 
 use super::flux::{NEWTON_FRACTION, NewtonFailure, NewtonSettings};
 use super::method::{Attempt, ConditionsAt, Method};
