@@ -33,7 +33,7 @@ fn inverse(p: &Block) -> Option<Block> {
     Some([p[3] * inv, -p[1] * inv, -p[2] * inv, p[0] * inv])
 }
 
-/// Solves `lower[i] u[i-1] + diag[i] u[i] + upper[i] u[i+1] = rhs[i]` for 2-vectors u[i],
+/// Solves `lower[i] u[i-1] + diag[i] u[i] + upper[i] u[i+1] = rhs[i]` for 2-vectors `u[i]`,
 /// writing u into `rhs`. `lower[0]` and `upper[n-1]` are ignored; `scratch` (n blocks) holds the
 /// eliminated super-diagonal. Returns `false` when a pivot block is singular or the result is
 /// not finite.

@@ -1,5 +1,5 @@
 //! ESDIRK pairs (explicit first stage, singly diagonally implicit, stiffly accurate) behind the
-//! [`Method`] interface; the one in use is ESDIRK4(3)6L[2]SA ([`ESDIRK43`]).
+//! [`Method`] interface; the one in use is ESDIRK4(3)6L\[2\]SA ([`ESDIRK43`]).
 //!
 //! On the stored quantities U (water, and energy in coupled runs) with G their net inflow, stage
 //! i of a step of `dt` from y_n solves
@@ -26,7 +26,7 @@
 //! Dense output: the cubic Hermite interpolant through the step's start and end with their
 //! slopes (fourth-order local error), where the start slope is the previous step's end slope,
 //! each slope limited to three times the step's change where it points the way the value moves,
-//! so that a long step over a fast decay does not swing past its ends ([`monotone_hermite`]).
+//! so that a long step over a fast decay does not swing past its ends (`monotone_hermite`).
 //! After a jump of the conditions (no smooth start slope) it is the quadratic through start and
 //! end with the end slope. Both slopes are those of L-stable step ends, so stiff components are
 //! already damped in them.
@@ -86,12 +86,12 @@ impl Tableau {
     }
 }
 
-/// ESDIRK4(3)6L[2]SA: fourth order, five implicit stages, gamma 1/4, L-stable, stiffly
+/// ESDIRK4(3)6L\[2\]SA: fourth order, five implicit stages, gamma 1/4, L-stable, stiffly
 /// accurate, stage order 2, with a third-order embedded pair (C.A. Kennedy and M.H. Carpenter,
 /// "Additive Runge-Kutta schemes for convection-diffusion-reaction equations", Appl. Numer. Math.
-/// 44 (2003) 139-181: the implicit table of ARK4(3)6L[2]SA). Its stability function stays >= 0
+/// 44 (2003) 139-181: the implicit table of ARK4(3)6L\[2\]SA). Its stability function stays >= 0
 /// on the whole negative real axis (checked in the tests below), so a decaying mode never steps
-/// past its equilibrium; TR-BDF2's goes down to -0.21 and ESDIRK3(2)4L[2]SA's to -0.13.
+/// past its equilibrium; TR-BDF2's goes down to -0.21 and ESDIRK3(2)4L\[2\]SA's to -0.13.
 pub static ESDIRK43: Tableau = Tableau {
     stages: 6,
     gamma: 0.25,

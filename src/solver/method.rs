@@ -7,7 +7,7 @@
 //! what it needs for dense output inside the step. The stepper owns the step-size control
 //! ([`super::Controller`]), landings and triggers.
 //!
-//! The one method is ESDIRK4(3)6L[2]SA ([`super::esdirk`]). The methods before it were not kept
+//! The one method is ESDIRK4(3)6L\[2\]SA ([`super::esdirk`]). The methods before it were not kept
 //! as references, since the Crank, conduction and balance tests check the method in use directly:
 //! extrapolated backward Euler with step doubling (three implicit solves per step, steps growing
 //! as tol^-1/2), then TR-BDF2 (Hosea & Shampine 1996: second order, two implicit stages). On the
