@@ -144,8 +144,13 @@ proptest! {
         prop_assert!(last < first, "no drying: {first} -> {last}");
         // The time steps and their dense output are not monotone: near equilibrium a step may
         // carry a deviation as large as the error control admits (tolerance x the range dried).
-        // A real wetting would be far larger than that.
-        let allowed = c.tolerance * (first - last);
+        // Rows between steps come from each cell's own limited cubic (kept between its step's
+        // ends), which tracks the water held only as closely as the cells' own changes allow:
+        // where layers start apart, water moving across their boundaries changes cells far more
+        // than the mean, so that spread counts too. A real wetting would be far larger.
+        let x0 = c.layers.iter().map(|l| l.initial_moisture);
+        let spread = x0.clone().fold(f64::NEG_INFINITY, f64::max) - x0.fold(f64::INFINITY, f64::min);
+        let allowed = c.tolerance * (first - last + spread);
         for pair in r.curves.windows(2) {
             let (a, b) = (pair[0].mean, pair[1].mean);
             prop_assert!(b <= a + allowed, "mean rose from {a} to {b} at {} s", pair[1].time);
