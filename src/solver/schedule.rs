@@ -218,13 +218,11 @@ impl ScheduleWalker {
         if within_reach(p, step, p.mean(stepper.moisture()), level) {
             return;
         }
-        let equilibria: Vec<f64> = [step.from, step.to]
-            .into_iter()
-            .filter_map(|air| equilibrium_towards(p, step, air))
-            .map(|x| 100.0 * x)
-            .collect();
-        let lo = equilibria.iter().copied().fold(f64::INFINITY, f64::min);
-        let hi = equilibria.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        // Out of reach means a known equilibrium range.
+        let Some((lo, hi)) = equilibrium_range(p, step) else {
+            return;
+        };
+        let (lo, hi) = (100.0 * lo, 100.0 * hi);
         let towards = if hi - lo <= 5e-4 {
             format!("{lo:.3} %")
         } else {
@@ -257,21 +255,23 @@ fn equilibrium_towards(p: &Problem, step: &StepPlan, air: Air) -> Option<f64> {
 /// level lies past every equilibrium the step's air (at its start and its end, for a ramp)
 /// drives the body towards. Without a known equilibrium, every level counts as reachable.
 fn within_reach(p: &Problem, step: &StepPlan, mean: f64, level: f64) -> bool {
-    let equilibria: Vec<f64> = [step.from, step.to]
+    match equilibrium_range(p, step) {
+        Some((lowest, highest)) if mean > highest => level >= lowest,
+        Some((lowest, highest)) if mean < lowest => level <= highest,
+        _ => true,
+    }
+}
+
+/// The lowest and highest equilibrium `step`'s air drives the body towards (at its start and
+/// its end, for a ramp), where one is known.
+fn equilibrium_range(p: &Problem, step: &StepPlan) -> Option<(f64, f64)> {
+    [step.from, step.to]
         .into_iter()
         .filter_map(|air| equilibrium_towards(p, step, air))
-        .collect();
-    let lowest = equilibria.iter().copied().fold(f64::INFINITY, f64::min);
-    let highest = equilibria.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    if equilibria.is_empty() {
-        true
-    } else if mean > highest {
-        level >= lowest
-    } else if mean < lowest {
-        level <= highest
-    } else {
-        true
-    }
+        .fold(None, |range, x| match range {
+            None => Some((x, x)),
+            Some((lo, hi)) => Some((f64::min(lo, x), f64::max(hi, x))),
+        })
 }
 
 /// Whether the step in force began with its `until_moisture` already reached, judged from its
