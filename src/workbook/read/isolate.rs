@@ -15,7 +15,7 @@
 
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
-use std::process::{Command, Stdio};
+use std::process::{Child, ChildStderr, ChildStdin, ChildStdout, Command, Stdio};
 use std::sync::mpsc::RecvTimeoutError;
 use std::time::{Duration, Instant};
 
@@ -89,24 +89,48 @@ fn this_exe() -> Option<PathBuf> {
     }
 }
 
-fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadError> {
-    let system = |what: &str, e: std::io::Error| system_error(exe, what, e);
+/// A reader child: this program started with `args`, its three standard streams piped and
+/// taken (shared by the one-shot child and the pool's long-lived ones).
+pub(super) struct Spawned {
+    pub child: Child,
+    pub stdin: ChildStdin,
+    pub stdout: ChildStdout,
+    pub stderr: ChildStderr,
+}
+
+/// Starts `exe` with `args` as a [`Spawned`] reader child.
+pub(super) fn spawn_reader(exe: &Path, args: &[&str]) -> Result<Spawned, ReadError> {
     let mut child = Command::new(exe)
-        .arg(CHILD_COMMAND)
-        .arg(ext)
+        .args(args)
         .stdin(Stdio::piped())
         .stdout(Stdio::piped())
         .stderr(Stdio::piped())
         .env("RUST_BACKTRACE", "0")
         .spawn()
-        .map_err(|e| system("the reader process could not be started", e))?;
-    let (Some(mut stdin), Some(mut stdout), Some(mut stderr)) =
+        .map_err(|e| system_error(exe, "the reader process could not be started", e))?;
+    let (Some(stdin), Some(stdout), Some(stderr)) =
         (child.stdin.take(), child.stdout.take(), child.stderr.take())
     else {
         let _ = child.kill();
         let _ = child.wait();
         return Err(not_a_workbook("the reader process had no pipes"));
     };
+    Ok(Spawned {
+        child,
+        stdin,
+        stdout,
+        stderr,
+    })
+}
+
+fn read_in_child(exe: &Path, bytes: &[u8], ext: &str) -> Result<RawBook, ReadError> {
+    let system = |what: &str, e: std::io::Error| system_error(exe, what, e);
+    let Spawned {
+        mut child,
+        mut stdin,
+        mut stdout,
+        mut stderr,
+    } = spawn_reader(exe, &[CHILD_COMMAND, ext])?;
     let input = bytes.to_vec();
     // Writing and reading on threads: a child that fills a pipe while we write the other
     // would otherwise wait on us for ever.

@@ -23,7 +23,7 @@
 use std::fmt;
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
-use std::process::{Child, Command, Stdio};
+use std::process::Child;
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender};
 use std::sync::{Arc, Mutex};
@@ -31,8 +31,8 @@ use std::thread::JoinHandle;
 use std::time::{Duration, Instant};
 
 use super::isolate::{
-    RLIMIT_AS, RLIMIT_CORE, RLIMIT_CPU, decode, encode, failure, not_a_workbook, quiet_child,
-    set_limit, system_error, wait_until,
+    RLIMIT_AS, RLIMIT_CORE, RLIMIT_CPU, Spawned, decode, encode, failure, not_a_workbook,
+    quiet_child, set_limit, spawn_reader, system_error, wait_until,
 };
 use super::{ReadError, read_bytes};
 use crate::limits::{
@@ -166,21 +166,12 @@ struct Answer {
 
 impl Server {
     fn start(exe: &Path) -> Result<Server, ReadError> {
-        let mut child = Command::new(exe)
-            .arg(SERVER_COMMAND)
-            .stdin(Stdio::piped())
-            .stdout(Stdio::piped())
-            .stderr(Stdio::piped())
-            .env("RUST_BACKTRACE", "0")
-            .spawn()
-            .map_err(|e| system_error(exe, "the reader process could not be started", e))?;
-        let (Some(stdin), Some(mut stdout), Some(mut stderr)) =
-            (child.stdin.take(), child.stdout.take(), child.stderr.take())
-        else {
-            let _ = child.kill();
-            let _ = child.wait();
-            return Err(not_a_workbook("the reader process had no pipes"));
-        };
+        let Spawned {
+            child,
+            stdin,
+            mut stdout,
+            mut stderr,
+        } = spawn_reader(exe, &[SERVER_COMMAND])?;
         let (tx, answers) = std::sync::mpsc::channel();
         let (requests, to_write) = std::sync::mpsc::channel::<Vec<u8>>();
         let kept = Arc::new(Mutex::new(Vec::new()));
