@@ -631,8 +631,9 @@ impl Contraction {
 /// not. The iteration stops when the estimated error of the iterate, `rate / (1 - rate)` times
 /// the last update, is below `settings.tol` (linear stages stop after one update, their inflow
 /// taken from the stage equation), and the faces are then evaluated at the final iterate: so
-/// `ws.inflow` and the returned surfaces belong to the state returned, and water leaving through the faces matches the change of water held
-/// up to the faces' own nonlinearity over the last (tiny) update.
+/// `ws.inflow` and the returned surfaces belong to the state returned, and water leaving through
+/// the faces matches the change of water held up to the faces' own nonlinearity over the last
+/// (tiny) update.
 #[allow(clippy::too_many_arguments)]
 pub fn solve_stage(
     problem: &Problem,
