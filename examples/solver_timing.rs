@@ -98,6 +98,15 @@ fn main() {
                 .curves
                 .iter()
                 .filter(|r| r.time > 0.0)
+                .inspect(|r| {
+                    if std::env::var_os("ERRS").is_some() {
+                        let tau = d * r.time / (l * l);
+                        println!(
+                            "  tau {tau:.4} err {:+.2e}",
+                            mr(r.mean) - s.moisture_ratio(tau)
+                        );
+                    }
+                })
                 .map(|r| (mr(r.mean) - s.moisture_ratio(d * r.time / (l * l))).abs())
                 .fold(0.0, f64::max),
             None => {

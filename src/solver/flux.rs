@@ -646,6 +646,9 @@ pub fn solve_stage(
     ws: &mut Workspace,
     settings: &NewtonSettings,
 ) -> Result<(Surfaces, usize), NewtonFailure> {
+    if settings.linear && ws.factored_for == Some((c_dt, t_c, *laws)) {
+        return solve_factored_linear_stage(problem, laws, t_c, c_dt, b, x, ws);
+    }
     let n = x.len();
     let areas = &problem.mesh.areas;
     let mass = &problem.dry_mass;
@@ -763,6 +766,47 @@ pub fn solve_stage(
     }
     ws.jacobian_valid = false;
     Err(NewtonFailure::NotConverged)
+}
+
+/// A linear stage whose matrix `m - c_dt J` is already factored (an earlier stage of the step, or
+/// an earlier step of the same size), solved directly: the interior faces are homogeneous in the
+/// unknowns, so the stage equation `(m - c_dt J) x = b + c_dt g0` needs only the exposed faces'
+/// constant parts g0, read off their (exact) linearisation at the guess in `x`. This skips the
+/// evaluation of every interior face that a Newton update from the guess would make: the same
+/// result to round-off, one sweep of the cells instead of three.
+fn solve_factored_linear_stage(
+    problem: &Problem,
+    laws: &FaceLaws,
+    t_c: f64,
+    c_dt: f64,
+    b: &[f64],
+    x: &mut [f64],
+    ws: &mut Workspace,
+) -> Result<(Surfaces, usize), NewtonFailure> {
+    let n = x.len();
+    let areas = &problem.mesh.areas;
+    let mass = &problem.dry_mass;
+    ws.rhs.copy_from_slice(b);
+    for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
+        let Some(site) = site else { continue };
+        let (j, [near, far], _) =
+            solve_exposed(problem, site, law, t_c, x, &mut ws.face_guess[side]);
+        // The outflow's part that does not depend on the unknowns; it leaves the face's cell.
+        let constant = j - near * x[site.cell] - far * x[site.gradient.inner];
+        let area = if side == 0 { areas[0] } else { areas[n] };
+        ws.rhs[site.cell] -= c_dt * area * constant;
+    }
+    if !ws.factors.solve(&mut ws.rhs) {
+        return Err(NewtonFailure::Breakdown);
+    }
+    ws.linear_solves += 1;
+    x.copy_from_slice(&ws.rhs);
+    // The inflow at the solution from the stage equation, as in `solve_stage`.
+    for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x.iter())).zip(b) {
+        *g = (m * v - bi) / c_dt;
+    }
+    let surfaces = exposed_surfaces(problem, laws, t_c, x, ws);
+    Ok((surfaces, 1))
 }
 
 /// The exposed faces' dependence on the second cell in (their second-order gradient, see
