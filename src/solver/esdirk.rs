@@ -395,9 +395,11 @@ impl Method for Esdirk {
             return Err(NewtonFailure::Breakdown);
         }
         let mut sum = 0.0;
-        for (i, e) in self.err.iter().enumerate() {
-            let v = e / self.scale[i % self.block];
-            sum += self.weight[i / self.block] * v * v;
+        for (cell, &w) in self.err.chunks_exact(self.block).zip(&self.weight) {
+            for (e, scale) in cell.iter().zip(self.scale) {
+                let v = e / scale;
+                sum += w * v * v;
+            }
         }
         let error = sum.sqrt();
         if !error.is_finite() {
