@@ -181,9 +181,6 @@ pub static ESDIRK43: Tableau = Tableau {
     ],
 };
 
-/// The most stages a table may have (the dense-output weights live on the stack).
-const MAX_STAGES: usize = 8;
-
 /// A stiffly accurate ESDIRK pair driven as a [`Method`].
 pub struct Esdirk {
     table: &'static Tableau,
@@ -332,6 +329,13 @@ fn monotone_hermite(s: f64, y0: f64, y1: f64, m0: f64, m1: f64) -> f64 {
     h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1
 }
 
+impl Esdirk {
+    /// Stage `j`'s net inflow of water per cell in the last accepted step.
+    fn water(&self, j: usize) -> impl Iterator<Item = &f64> {
+        self.kept_g[j].iter().step_by(self.block)
+    }
+}
+
 impl Method for Esdirk {
     fn error_order(&self) -> u32 {
         self.table.error_order()
@@ -451,7 +455,6 @@ impl Method for Esdirk {
     }
 
     fn interpolate(&self, s: f64, start: &State, end: &State, out: &mut State) {
-        out.clone_from(end);
         // The fallback for each value: the limited cubic, or after a jump the quadratic.
         let fallback = |y0: f64, y1: f64, m0: f64, m1: f64| {
             if self.kept_cubic {
@@ -461,6 +464,7 @@ impl Method for Esdirk {
                 y0 + a * (y1 - y0) + b * m1
             }
         };
+        out.temperature.clone_from(&end.temperature);
         for (((o, &y0), &m0), &m1) in out
             .temperature
             .iter_mut()
@@ -474,27 +478,35 @@ impl Method for Esdirk {
         // slopes within three times it, the monotone box of `monotone_hermite`), else the
         // fallback. The quartic is as accurate as the steps themselves; the cubic's error is
         // a power of dt larger, and rows between steps would set the tolerance a run needs.
+        // First the water gained since the step's start, sum_j dt b_j(s) G_j, cell by cell.
         let tab = self.table;
-        let mut w = [0.0; MAX_STAGES];
-        for (w, row) in w.iter_mut().zip(tab.dense) {
-            *w = self.kept_dt * s * (row[0] + s * (row[1] + s * (row[2] + s * row[3])));
+        for (j, row) in tab.dense.iter().enumerate() {
+            let w = self.kept_dt * s * (row[0] + s * (row[1] + s * (row[2] + s * row[3])));
+            if j == 0 {
+                for (o, g) in out.moisture.iter_mut().zip(self.water(j)) {
+                    *o = w * g;
+                }
+            } else {
+                for (o, g) in out.moisture.iter_mut().zip(self.water(j)) {
+                    *o += w * g;
+                }
+            }
         }
+        let ends = start.moisture.iter().zip(&end.moisture);
+        let slopes = self.kept_start.moisture.iter().zip(&self.kept_end.moisture);
         let cells = out
             .moisture
             .iter_mut()
-            .zip(&start.moisture)
-            .zip(self.kept_start.moisture.iter().zip(&self.kept_end.moisture))
-            .zip(&self.inv_mass)
-            .enumerate();
-        for (i, (((o, &y0), (&m0, &m1)), &inv_m)) in cells {
-            let change = *o - y0;
+            .zip(ends)
+            .zip(slopes)
+            .zip(&self.inv_mass);
+        for (((o, (&y0, &y1)), (&m0, &m1)), &inv_m) in cells {
+            let change = y1 - y0;
             let resolved = m0.abs() <= 3.0 * change.abs() && m1.abs() <= 3.0 * change.abs();
             *o = if resolved {
-                let k = i * self.block;
-                let gained: f64 = (0..tab.stages).map(|j| w[j] * self.kept_g[j][k]).sum();
-                y0 + gained * inv_m
+                y0 + *o * inv_m
             } else {
-                fallback(y0, *o, m0, m1)
+                fallback(y0, y1, m0, m1)
             };
         }
     }
