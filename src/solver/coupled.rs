@@ -24,7 +24,7 @@
 //! reports both balances.
 
 use super::blocktri::{self, Block};
-use super::flux::{self, Contraction, NewtonFailure, NewtonSettings};
+use super::flux::{self, Contraction, NewtonFailure, NewtonMemory, NewtonSettings};
 use super::problem::{
     FaceLaw, FaceSite, InnerFace, MaterialProps, Problem, Thermal, WATER_SPECIFIC_HEAT,
     saturated_vapour_density,
@@ -132,8 +132,8 @@ pub struct CoupledWorkspace {
     pub inflow: Vec<f64>,
     /// Whether `deriv` holds derivative blocks that may be reused.
     pub jacobian_valid: bool,
-    /// The last contraction rate of the Newton iteration.
-    pub rate: f64,
+    /// What the Newton iteration measured in the last stage solve.
+    pub memory: NewtonMemory,
     /// Linear solves done.
     pub linear_solves: u64,
     /// Evaluations of the face derivative blocks.
@@ -160,7 +160,7 @@ impl CoupledWorkspace {
             delta: vec![[0.0; 2]; n],
             inflow: vec![0.0; 2 * n],
             jacobian_valid: false,
-            rate: 1.0,
+            memory: NewtonMemory::default(),
             linear_solves: 0,
             jacobian_evaluations: 0,
             face_guess: [[f64::NAN; 2]; 2],
@@ -882,7 +882,8 @@ pub fn solve_stage(
                 .max(ws.rhs[i][1].abs() / tol_t);
         }
         let refresh;
-        (converged, refresh) = contraction.judge(iteration, update, &mut ws.rate, settings.linear);
+        (converged, refresh) =
+            contraction.judge(iteration, update, &mut ws.memory, settings.linear, false);
         if refresh {
             ws.jacobian_valid = false;
         }

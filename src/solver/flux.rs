@@ -596,25 +596,33 @@ impl Contraction {
     }
 
     /// After update number `iteration` of scaled size `update`: whether the iterate is
-    /// accepted, and whether the Jacobian should be rebuilt before the next update. `kept_rate`
-    /// carries the last measured contraction rate from one solve to the next.
+    /// accepted, and whether the Jacobian should be rebuilt before the next update. `memory`
+    /// carries what was measured from one solve to the next.
     pub(super) fn judge(
         &mut self,
         iteration: usize,
         update: f64,
-        kept_rate: &mut f64,
+        memory: &mut NewtonMemory,
         linear: bool,
+        quadratic_start: bool,
     ) -> (bool, bool) {
-        // The contraction rate: measured from the second update on, else the last one seen.
         let rate = if iteration > 0 && self.last_update > 0.0 {
-            update / self.last_update
+            // Measured from the second update on.
+            let rate = update / self.last_update;
+            memory.rate = rate;
+            memory.quadratic = rate / self.last_update;
+            rate
         } else {
-            // Before a rate is measured, the last one seen, raised a little for safety.
-            kept_rate.max(1e-3).powf(0.8)
+            // Before a rate is measured: Newton's method with fresh derivatives contracts
+            // quadratically, the next update about K u² with K of the last solve (so the rate
+            // is K u), taken twice for safety; without a K, the last rate seen, raised a little.
+            let guess = memory.rate.max(1e-3).powf(0.8);
+            if quadratic_start && memory.quadratic.is_finite() {
+                (2.0 * memory.quadratic * update).min(guess)
+            } else {
+                guess
+            }
         };
-        if iteration > 0 {
-            *kept_rate = rate;
-        }
         self.last_update = update;
         let converged = linear
             || update <= NEWTON_FRACTION * 1e-2
@@ -624,16 +632,36 @@ impl Contraction {
     }
 }
 
+/// What a Newton iteration measured, carried to the next stage solve: the last contraction
+/// rate (next update over this one) and the last quadratic constant K (next update over this
+/// one squared), both in the error norm's units.
+#[derive(Debug, Clone, Copy)]
+pub struct NewtonMemory {
+    /// The last measured contraction rate.
+    pub rate: f64,
+    /// The last measured K; NaN before one is measured.
+    pub quadratic: f64,
+}
+
+impl Default for NewtonMemory {
+    fn default() -> Self {
+        NewtonMemory {
+            rate: 1.0,
+            quadratic: f64::NAN,
+        }
+    }
+}
+
 /// Solves one implicit stage `m_i x_i - c_dt * inflow_i(x) = b_i` for every cell (b in kg of
 /// water per unit normalised area) by Newton's method, starting from the guess in `x` (`fallback`
 /// when the guess gives non-finite values). The face derivatives are reused from an earlier
 /// evaluation while the iteration contracts well (modified Newton) and refreshed when it does
 /// not. The iteration stops when the estimated error of the iterate, `rate / (1 - rate)` times
-/// the last update, is below `settings.tol` (linear stages stop after one update, their inflow
-/// taken from the stage equation), and the faces are then evaluated at the final iterate: so
-/// `ws.inflow` and the returned surfaces belong to the state returned, and water leaving through
-/// the faces matches the change of water held up to the faces' own nonlinearity over the last
-/// (tiny) update.
+/// the last update, is below `settings.tol` (before a rate is measured, Newton's quadratic
+/// contraction with the last solve's constant gives it; linear stages stop after one update);
+/// `finish_stage` then takes the inflow from the stage equation and matches the faces' rates to
+/// it, so `ws.inflow` and the returned surfaces belong to the state returned and the water
+/// balance closes to round-off.
 #[allow(clippy::too_many_arguments)]
 pub fn solve_stage(
     problem: &Problem,
@@ -746,20 +774,18 @@ pub fn solve_stage(
             *v += r;
             update = update.max(r.abs());
         }
-        if settings.linear {
-            // One update solves a linear stage, so the stage equation gives the inflow at the
-            // solution, G = (m x - b) / c_dt, without evaluating the interior faces again (it
-            // enters every later use multiplied by a time step, so its round-off does too); the
-            // exposed faces, closed forms, are evaluated at the solution for their rates.
-            for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x.iter())).zip(b) {
-                *g = (m * v - bi) / c_dt;
-            }
-            let surfaces = exposed_surfaces(problem, laws, t_c, x, ws);
+        let refresh;
+        (converged, refresh) = contraction.judge(
+            iteration,
+            update / tol,
+            &mut ws.memory,
+            settings.linear,
+            true,
+        );
+        if converged {
+            let surfaces = finish_stage(problem, laws, t_c, c_dt, b, x, ws);
             return Ok((surfaces, iteration + 1));
         }
-        let refresh;
-        (converged, refresh) =
-            contraction.judge(iteration, update / tol, &mut ws.rate, settings.linear);
         if refresh {
             ws.jacobian_valid = false;
         }
@@ -785,7 +811,6 @@ fn solve_factored_linear_stage(
 ) -> Result<(Surfaces, usize), NewtonFailure> {
     let n = x.len();
     let areas = &problem.mesh.areas;
-    let mass = &problem.dry_mass;
     ws.rhs.copy_from_slice(b);
     for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
         let Some(site) = site else { continue };
@@ -801,12 +826,54 @@ fn solve_factored_linear_stage(
     }
     ws.linear_solves += 1;
     x.copy_from_slice(&ws.rhs);
-    // The inflow at the solution from the stage equation, as in `solve_stage`.
-    for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x.iter())).zip(b) {
+    Ok((finish_stage(problem, laws, t_c, c_dt, b, x, ws), 1))
+}
+
+/// The end of a stage solve at its accepted iterate `x`: the inflow from the stage equation,
+/// G = (m x - b) / c_dt, rather than from the faces again (exact for a linear stage's one
+/// update, within the Newton tolerance otherwise, and it enters every later use multiplied by a
+/// time step), and the exposed faces evaluated at `x` for their rates. Those rates are then
+/// matched to the water the stage equation says left (-sum G: the interior fluxes cancel in the
+/// sum), so the water balance closes to round-off whatever the Newton iteration left over; the
+/// difference, a few hundredths of the tolerance at most, goes to the faces in proportion to
+/// their flows.
+fn finish_stage(
+    problem: &Problem,
+    laws: &FaceLaws,
+    t_c: f64,
+    c_dt: f64,
+    b: &[f64],
+    x: &[f64],
+    ws: &mut Workspace,
+) -> Surfaces {
+    let mass = &problem.dry_mass;
+    let mut total = 0.0;
+    for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x)).zip(b) {
         *g = (m * v - bi) / c_dt;
+        total += *g;
     }
-    let surfaces = exposed_surfaces(problem, laws, t_c, x, ws);
-    Ok((surfaces, 1))
+    let mut s = exposed_surfaces(problem, laws, t_c, x, ws);
+    let (flow_a, flow_b) = (
+        problem.face_a.map_or(0.0, |f| f.area * s.out_a),
+        problem.face_b.map_or(0.0, |f| f.area * s.out_b),
+    );
+    let missing = -total - (flow_a + flow_b);
+    let share_a = match (problem.face_a, problem.face_b) {
+        (Some(_), None) => 1.0,
+        (None, Some(_)) => 0.0,
+        (Some(_), Some(_)) if flow_a.abs() + flow_b.abs() > 0.0 => {
+            flow_a.abs() / (flow_a.abs() + flow_b.abs())
+        }
+        (Some(_), Some(_)) => 0.5,
+        (None, None) => return s,
+    };
+    if let Some(f) = problem.face_a.filter(|f| f.area > 0.0) {
+        s.out_a += share_a * missing / f.area;
+    }
+    if let Some(f) = problem.face_b.filter(|f| f.area > 0.0) {
+        s.out_b += (1.0 - share_a) * missing / f.area;
+    }
+    s
 }
 
 /// The exposed faces' dependence on the second cell in (their second-order gradient, see

@@ -1,7 +1,7 @@
 //! Buffers the solver writes into, sized once from the mesh so that the inner loop never
 //! allocates.
 
-use super::flux::FaceLaws;
+use super::flux::{FaceLaws, NewtonMemory};
 use super::tridiag::Factors;
 
 /// What a linear problem's factored matrix depends on: (stage coefficient c dt, temperature,
@@ -36,8 +36,8 @@ pub struct Workspace {
     pub inflow: Vec<f64>,
     /// Whether `d_left` and `d_right` hold derivatives that may be reused.
     pub jacobian_valid: bool,
-    /// The last contraction rate of the Newton iteration.
-    pub rate: f64,
+    /// What the Newton iteration measured in the last stage solve.
+    pub memory: NewtonMemory,
     /// Linear solves done (counted here because the Newton loop owns them).
     pub linear_solves: u64,
     /// Evaluations of the face derivatives.
@@ -64,7 +64,7 @@ impl Workspace {
             delta: vec![0.0; n],
             inflow: vec![0.0; n],
             jacobian_valid: false,
-            rate: 1.0,
+            memory: NewtonMemory::default(),
             linear_solves: 0,
             jacobian_evaluations: 0,
             face_guess: [f64::NAN; 2],
