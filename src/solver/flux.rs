@@ -847,11 +847,11 @@ fn finish_stage(
     ws: &mut Workspace,
 ) -> Surfaces {
     let mass = &problem.dry_mass;
-    let mut total = 0.0;
+    let per_time = 1.0 / c_dt;
     for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x)).zip(b) {
-        *g = (m * v - bi) / c_dt;
-        total += *g;
+        *g = (m * v - bi) * per_time;
     }
+    let total: f64 = ws.inflow.iter().sum();
     let mut s = exposed_surfaces(problem, laws, t_c, x, ws);
     let (flow_a, flow_b) = (
         problem.face_a.map_or(0.0, |f| f.area * s.out_a),
