@@ -1,16 +1,17 @@
 """A side-by-side peer for dampfront's solver: scipy's BDF method of lines on the same mesh.
 
 For the bench problems P1-P4 (issue 8; defined in benches/common/mod.rs) this script solves the
-same cell-centred finite-volume discretisation as dampfront (the same cell centres, face areas,
-cell volumes, D at the face from the mean of its two cells, the exposed face's surface balance
-with dampfront's second-order surface gradient: conduction from X* = w1 X_1 + w2 X_2 over the
-distance h1 h2 / (h1 + h2)) with scipy's ``solve_ivp(method="BDF")`` and a sparse (tridiagonal)
-Jacobian pattern (``jac_sparsity``), timed around the solve only. It measures the error in the
-mean moisture ratio against the same exact values as dampfront's bench (Crank's series for P1,
-P2 and P4, a very fine dampfront run for P3), finds for each side the cheapest setting (cells
-and tolerance) that reaches 1e-4 and 1e-5, and prints the ratio of the solve times. dampfront's
-side comes from the same run: the script starts ``cargo bench --bench solver -- --peer-json``,
-which times dampfront's solve over a grid of settings and hands over its meshes.
+same cell-centred finite-volume discretisation as dampfront (dampfront's own faces and cell
+centres, which it hands over, face areas, cell volumes, D at the face from the mean of its two
+cells, the exposed face's surface balance with dampfront's second-order surface gradient:
+conduction from X* = w1 X_1 + w2 X_2 over the distance h1 h2 / (h1 + h2)) with scipy's
+``solve_ivp(method="BDF")`` and a sparse (tridiagonal) Jacobian pattern (``jac_sparsity``),
+timed around the solve only. It measures the error in the mean moisture ratio against the same
+exact values as dampfront's bench (Crank's series for P1, P2 and P4, a very fine dampfront run
+for P3), finds for each side the cheapest setting (cells and tolerance) that reaches 1e-4 and
+1e-5, and prints the ratio of the solve times. dampfront's side comes from the same run: the
+script starts ``cargo bench --bench solver -- --peer-json``, which times dampfront's solve over
+a grid of settings and hands over its meshes (faces and centres).
 
 It then compares whole runs for P3: this script's own run for P3 alone (Python start, imports,
 reading the mesh, the solve, writing the curve as CSV) against ``dampfront solve`` on a P3
@@ -49,18 +50,16 @@ RTOLS = [1e-3, 3e-4, 1e-4, 3e-5, 1e-5, 3e-6, 1e-6, 3e-7, 1e-7, 3e-8, 1e-8]
 class Discretisation:
     """dampfront's finite-volume mesh and fluxes for one problem at one cell count."""
 
-    def __init__(self, p, centres):
+    def __init__(self, p, centres, faces):
         c = np.asarray(centres, dtype=float)
+        faces = np.asarray(faces, dtype=float)
         n = len(c)
         length = p["length"]
         m = p["geometry_m"]
-        # Cell-centred: each centre is the middle of its cell, so the faces follow from the
-        # centres (face 0 at 0, the last at the length).
-        faces = np.empty(n + 1)
-        faces[0] = 0.0
-        for i in range(n):
-            faces[i + 1] = 2.0 * c[i] - faces[i]
-        faces[-1] = length
+        # dampfront's own faces and centres: a cylinder's or sphere's centre is its cell's volume
+        # centroid, not the faces' mid-point, so neither follows from the other.
+        if len(faces) != n + 1:
+            raise ValueError(f"{n} centres need {n + 1} faces, not {len(faces)}")
         r = np.maximum(length - faces, 0.0)  # radius; face A is the outer surface
         if m == 0:
             areas = np.ones(n + 1)
@@ -139,7 +138,7 @@ def scipy_solve_once(p, cells, rtol):
     """One BDF solve on dampfront's mesh with `cells` cells: (discretisation, solution).
     Only the solve_ivp call is inside the timing of `scipy_solve`; the mesh and the sparsity
     pattern are set up before it."""
-    disc = Discretisation(p, p["centres"][str(cells)])
+    disc = Discretisation(p, p["centres"][str(cells)], p["faces"][str(cells)])
     times = np.asarray(p["times"])
     sparsity = diags([1.0, 1.0, 1.0], [-1, 0, 1], shape=(disc.n, disc.n))
     y0 = np.full(disc.n, disc.x0)

@@ -6,8 +6,9 @@
 //!
 //! `cargo bench --bench solver -- --peer-json FILE [--p3-workbook PATH]` instead writes what
 //! `benches/python_peer.py` needs: for P1-P4 over a grid of cells and tolerances, dampfront's
-//! solve time and error, the cell centres, and the exact moisture ratios at the output times;
-//! with `--p3-workbook`, P3 as a case workbook at the cheapest settings reaching 1e-4.
+//! solve time and error, the mesh (cell centres and faces), and the exact moisture ratios at the
+//! output times; with `--p3-workbook`, P3 as a case workbook at the cheapest settings reaching
+//! 1e-4.
 
 mod common;
 
@@ -142,6 +143,7 @@ fn peer_json(path: &str, p3_workbook: Option<&str>) {
         let material = &base.materials[layer.material];
         let step = &base.schedule[0];
         let mut meshes = BTreeMap::new();
+        let mut faces = BTreeMap::new();
         let mut grid = Vec::new();
         for &cells in &cells_grid {
             for &tol in &tol_grid {
@@ -150,6 +152,10 @@ fn peer_json(path: &str, p3_workbook: Option<&str>) {
                 meshes
                     .entry(cells.to_string())
                     .or_insert_with(|| run.positions.clone());
+                faces.entry(cells.to_string()).or_insert_with(|| {
+                    let valid = case.clone().validated().expect("a valid case");
+                    dampfront::solver::Problem::new(&valid).mesh.faces
+                });
                 grid.push(serde_json::json!({
                     "cells": cells, "tol": tol, "solve_s": secs,
                     "error": error(&case, &run, &exact),
@@ -175,6 +181,7 @@ fn peer_json(path: &str, p3_workbook: Option<&str>) {
                 "times": exact.points.iter().map(|p| p.0).collect::<Vec<_>>(),
                 "exact_mr": exact.points.iter().map(|p| p.1).collect::<Vec<_>>(),
                 "centres": meshes,
+                "faces": faces,
                 "dampfront": grid,
             }),
         );

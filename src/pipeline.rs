@@ -396,7 +396,9 @@ impl Pipeline {
             Err(problems) => return self.fail(input, problems),
         };
         let case = &parsed.case;
-        let problem_data = Problem::new(case);
+        // The mesh is graded for the earliest time the result shows, measured points included.
+        let measured_times: Vec<f64> = parsed.measured_si().iter().map(|m| m.time).collect();
+        let problem_data = Problem::with_measured_times(case, &measured_times);
         let target_warning = target_warning(case, &problem_data);
         let bar = ProgressBar::hidden();
         bar.set_length(1000);

@@ -275,15 +275,41 @@ pub struct Problem {
 impl Problem {
     /// Builds the discrete problem from a validated case.
     pub fn new(case: &ValidCase) -> Problem {
+        Problem::with_measured_times(case, &[])
+    }
+
+    /// As [`Problem::new`] for a case whose run is also compared with points measured at
+    /// `measured_times` (s): the grading towards a fixed surface follows the earliest time the
+    /// run reports, and a measured point may come before every output row and profile.
+    pub fn with_measured_times(case: &ValidCase, measured_times: &[f64]) -> Problem {
         let case: &Case = case;
         let n_layers = case.layers.len();
         // A single layer exposed on both faces is two one-face halves back to back: each half
         // gets the cells and grading a one-face layer would, so both faces are resolved alike.
         let mirrored = n_layers == 1 && case.exposed == crate::case::Exposed::Both;
-        // Exposed faces are graded by their Biot number, material boundaries by the fixed ratio.
+        let (profile_times, profile_times_given) = match &case.profile_times {
+            Some(t) => {
+                let mut t = t.clone();
+                t.sort_by(f64::total_cmp);
+                t.dedup();
+                (t, true)
+            }
+            None => (
+                (0..6).map(|i| case.end_time * i as f64 / 5.0).collect(),
+                false,
+            ),
+        };
+        let t_first = first_reported_time(case.output_interval(), &profile_times, measured_times);
+        // Exposed faces are graded by their Biot number and the boundary layer at the first
+        // reported time, material boundaries by the fixed ratio.
         let face_ratio = |layer: usize| {
             let length = case.layers[layer].thickness * if mirrored { 0.5 } else { 1.0 };
-            super::mesh::grading_for_biot(surface_biot(case, layer, length), case.geometry.index())
+            super::mesh::grading_for_face(
+                surface_biot(case, layer, length),
+                case.geometry.index(),
+                boundary_layer_cells(case, layer, length, t_first),
+                case.cells_per_layer,
+            )
         };
         let refine: Vec<Refine> = (0..n_layers)
             .map(|i| {
@@ -386,18 +412,6 @@ impl Problem {
         let exposed_area = face_a.map_or(0.0, |f| f.area) + face_b.map_or(0.0, |f| f.area);
         let steps = plan_steps(&case.schedule);
         let output_every = case.output_interval();
-        let (profile_times, profile_times_given) = match &case.profile_times {
-            Some(t) => {
-                let mut t = t.clone();
-                t.sort_by(f64::total_cmp);
-                t.dedup();
-                (t, true)
-            }
-            None => (
-                (0..6).map(|i| case.end_time * i as f64 / 5.0).collect(),
-                false,
-            ),
-        };
         let centre = centre_weights(&mesh, case);
         let moisture_scale = moisture_scale(case, &steps, &materials);
         let thermal = (case.coupling == crate::case::Coupling::HeatAndMoisture).then(|| {
@@ -668,6 +682,38 @@ fn surface_biot(case: &Case, layer: usize, length: f64) -> f64 {
     if biot.is_nan() { f64::INFINITY } else { biot }
 }
 
+/// The earliest time a run reports, s: the smallest of the output row spacing, the first
+/// positive profile time and the first positive measured time (infinite when none is positive).
+fn first_reported_time(output_every: f64, profile_times: &[f64], measured_times: &[f64]) -> f64 {
+    std::iter::once(output_every)
+        .chain(profile_times.iter().copied())
+        .chain(measured_times.iter().copied())
+        .filter(|&t| t > 0.0 && t.is_finite())
+        .fold(f64::INFINITY, f64::min)
+}
+
+/// z = cells sqrt(D t / length²): the depth sqrt(D t) the surface has dried into by time `t`,
+/// counted in the layer's cells as if they were uniform (the layer's `cells_per_layer` cells over
+/// `length`, the half thickness of a layer exposed on both faces). D is the layer's diffusivity
+/// at its initial moisture and at the temperature the run starts the layer at (its initial
+/// temperature in a coupled run, the first step's air in an isothermal one, which holds the
+/// product at the air's temperature). NaN when D is unknown.
+fn boundary_layer_cells(case: &Case, layer: usize, length: f64, t: f64) -> f64 {
+    let l = &case.layers[layer];
+    let Some(m) = case.materials.get(l.material) else {
+        return f64::NAN;
+    };
+    let t_c = if case.coupling == crate::case::Coupling::HeatAndMoisture {
+        l.initial_temp_c
+    } else {
+        case.schedule
+            .first()
+            .map_or(l.initial_temp_c, |s| s.dry_bulb_c)
+    };
+    let d = m.diffusivity.at(l.initial_moisture, t_c);
+    case.cells_per_layer as f64 * (d * t).sqrt() / length
+}
+
 /// Saturated water-vapour density at `t_c`, kg/m3 (ideal gas).
 pub fn saturated_vapour_density(t_c: f64) -> f64 {
     physics::psychro::vapour_density_kg_m3(physics::psychro::saturation_pressure_pa(t_c), t_c)
@@ -773,6 +819,72 @@ fn moisture_scale(case: &Case, steps: &[StepPlan], materials: &[MaterialProps]) 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A 10 mm slab (D 1e-9 m2/s, so L^2 / D = 1e5 s) with a fixed surface, 40 cells, rows every
+    /// `every` s and no profiles.
+    fn fixed_slab(every: f64) -> Case {
+        use crate::case::{Exposed, Geometry, Humidity, Material, Step};
+        let step = Step::constant(40.0, Humidity::Unspecified, Exchange::FixedSurface(0.1));
+        let mut case = Case::single_layer(
+            Geometry::Slab,
+            Exposed::A,
+            Material::constant("m", 500.0, 1e-9),
+            0.01,
+            0.5,
+            vec![step],
+            2e4,
+        );
+        case.output_every = Some(every);
+        case.profile_times = Some(Vec::new());
+        case
+    }
+
+    /// Largest over smallest cell of a one-layer problem.
+    fn grading(p: &Problem) -> f64 {
+        let w: Vec<f64> = p.mesh.faces.windows(2).map(|w| w[1] - w[0]).collect();
+        w.iter().fold(0.0, |a: f64, &b| a.max(b)) / w.iter().fold(f64::INFINITY, |a, &b| a.min(b))
+    }
+
+    #[test]
+    fn the_grading_towards_a_fixed_surface_follows_the_earliest_reported_time() {
+        let valid = |case: Case| case.validated().expect("valid");
+        // Rows every 1e-2 L^2 / D: the boundary layer is z = 40 sqrt(1e-2) = 4 cells deep at
+        // the first row, so the cells are uniform.
+        let coarse = Problem::new(&valid(fixed_slab(1000.0)));
+        assert!(
+            (grading(&coarse) - 1.0).abs() < 1e-9,
+            "{}",
+            grading(&coarse)
+        );
+        // Rows every 1e-5 L^2 / D: z = 0.13, the full ratio.
+        let full = super::super::mesh::FaceGrading::of(0).full;
+        let fine = Problem::new(&valid(fixed_slab(1.0)));
+        assert!((grading(&fine) - full).abs() < 1e-9, "{}", grading(&fine));
+        // An early profile, or an early measured point, counts as much as an early row.
+        let mut profiled = fixed_slab(1000.0);
+        profiled.profile_times = Some(vec![5000.0, 1.0]);
+        assert!((grading(&Problem::new(&valid(profiled))) - full).abs() < 1e-9);
+        let measured = Problem::with_measured_times(&valid(fixed_slab(1000.0)), &[0.0, 1.0]);
+        assert!((grading(&measured) - full).abs() < 1e-9);
+        // In between, a ratio between the two.
+        let mid = grading(&Problem::new(&valid(fixed_slab(50.0))));
+        assert!(mid > 1.5 && mid < full - 0.5, "{mid}");
+        // Faster diffusion at the run's temperature deepens the boundary layer: with an
+        // activation energy, air at 80 C instead of the 25 C reference gives a smaller ratio.
+        let mut warm = fixed_slab(50.0);
+        warm.materials[0].diffusivity.activation_energy_j_mol = 30_000.0;
+        warm.schedule[0].dry_bulb_c = 80.0;
+        let warm = grading(&Problem::new(&valid(warm)));
+        assert!(warm < mid, "{warm} vs {mid}");
+    }
+
+    #[test]
+    fn the_earliest_reported_time_skips_zero_and_missing_times() {
+        assert_eq!(first_reported_time(60.0, &[0.0, 120.0], &[]), 60.0);
+        assert_eq!(first_reported_time(60.0, &[0.0, 30.0], &[]), 30.0);
+        assert_eq!(first_reported_time(60.0, &[], &[0.0, 10.0, 5.0]), 5.0);
+        assert_eq!(first_reported_time(f64::NAN, &[], &[]), f64::INFINITY);
+    }
 
     #[test]
     fn surface_gradient_on_uniform_cells_is_the_textbook_one_sided_formula() {
