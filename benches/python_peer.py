@@ -44,7 +44,8 @@ from scipy.sparse import diags
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
 TARGETS = [1e-4, 1e-5]
-RTOLS = [1e-3, 3e-4, 1e-4, 3e-5, 1e-5, 3e-6, 1e-6, 3e-7, 1e-7, 3e-8, 1e-8]
+# Quarter-decade steps, as dampfront's side (benches/solver.rs, peer_json).
+RTOLS = [10.0 ** (-3.0 - k / 4.0) for k in range(21)]
 
 
 class Discretisation:
@@ -257,8 +258,8 @@ def main():
                 print(f"| {name} | {target:.0e} | (not reached in the grid: scipy {s}, dampfront {d}) |")
                 continue
             print(
-                f"| {name} | {target:.0e} | {s['cells']} | {s['tol']:.0e} | "
-                f"{s['solve_s'] * 1e3:.2f} | {s['error']:.1e} | {d['cells']} | {d['tol']:.0e} | "
+                f"| {name} | {target:.0e} | {s['cells']} | {s['tol']:.1e} | "
+                f"{s['solve_s'] * 1e3:.2f} | {s['error']:.1e} | {d['cells']} | {d['tol']:.1e} | "
                 f"{d['solve_s'] * 1e3:.3f} | {d['error']:.1e} | "
                 f"{ratio(s['solve_s'] / d['solve_s'])} |"
             )
@@ -287,9 +288,9 @@ def main():
         d = chosen["dampfront"]
         print(
             f"whole run, P3 at 1e-4 (median of 7): this script for P3 alone "
-            f"({s['cells']} cells, rtol {s['tol']:.0e}; start, imports, solve, CSV out) "
+            f"({s['cells']} cells, rtol {s['tol']:.1e}; start, imports, solve, CSV out) "
             f"{py * 1e3:.0f} ms; `dampfront solve` on a P3 workbook ({d['cells']} cells, "
-            f"tol {d['tol']:.0e}; xlsx in, result workbook with charts out) {df * 1e3:.1f} ms; "
+            f"tol {d['tol']:.1e}; xlsx in, result workbook with charts out) {df * 1e3:.1f} ms; "
             f"ratio {ratio(py / df)}"
         )
 

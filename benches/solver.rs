@@ -131,10 +131,15 @@ pub fn machine() -> String {
 
 /// The peer's data (see the module documentation).
 fn peer_json(path: &str, p3_workbook: Option<&str>) {
-    // Half-decade steps, so that each side's cheapest setting is found to within a factor ~1.4
-    // in cells and ~3 in tolerance (the scipy side uses the same meshes and rtol steps).
-    let cells_grid = [10, 14, 20, 28, 40, 56, 80, 112, 160, 224, 320];
-    let tol_grid = [1e-3, 3e-4, 1e-4, 3e-5, 1e-5, 3e-6, 1e-6, 3e-7, 1e-7];
+    // Quarter-octave steps in cells and quarter-decade steps in tolerance, so that each side's
+    // cheapest setting is found to within a factor ~1.2 in cells and ~1.8 in tolerance (the
+    // scipy side uses the same meshes and rtol steps).
+    let cells_grid = [
+        10, 12, 14, 17, 20, 24, 28, 34, 40, 48, 56, 67, 80, 95, 112, 134, 160, 190, 224, 267, 320,
+    ];
+    let tol_grid: Vec<f64> = (0..=16)
+        .map(|k| 10f64.powf(-3.0 - f64::from(k) / 4.0))
+        .collect();
     let mut out = BTreeMap::new();
     for name in &PROBLEMS[..4] {
         let exact = Exact::of(name);

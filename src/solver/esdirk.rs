@@ -207,6 +207,10 @@ pub struct Esdirk {
     /// The net inflows of the last accepted step's stages and its length, for the quartic.
     kept_g: Vec<Vec<f64>>,
     kept_dt: f64,
+    /// Per cell, whether the last accepted step resolves its change (see `accept`), and whether
+    /// every cell's does.
+    resolved: Vec<bool>,
+    all_resolved: bool,
     /// 1 / dry mass of each cell (water held = dry mass x moisture in every model).
     inv_mass: Vec<f64>,
     /// The explicit predictor's weights (`predictor_weights`).
@@ -250,6 +254,8 @@ impl Esdirk {
             kept_cubic: false,
             kept_g: vec![vec![0.0; nb]; s],
             kept_dt: 0.0,
+            resolved: vec![false; n],
+            all_resolved: false,
             inv_mass: problem.dry_mass.iter().map(|m| 1.0 / m).collect(),
             predictor: predictor_weights(table.c),
             err: vec![0.0; nb],
@@ -290,18 +296,9 @@ impl Esdirk {
         guess.update_with(y, &done[i - 1], |_, a, b| a + f * (b - a));
         // Moisture: the stages' inflows so far integrated to this stage's time by the
         // polynomial through them (an explicit formula of order i), far closer than the line.
-        for (j, &w) in self.predictor[i].iter().enumerate() {
-            let w = w * dt;
-            let water = self.g[j].iter().step_by(self.block);
-            if j == 0 {
-                for (o, g) in guess.moisture.iter_mut().zip(water) {
-                    *o = w * g;
-                }
-            } else {
-                for (o, g) in guess.moisture.iter_mut().zip(water) {
-                    *o += w * g;
-                }
-            }
+        guess.moisture.fill(0.0);
+        for (g, &w) in self.g.iter().zip(&self.predictor[i]) {
+            add_water(&mut guess.moisture, w * dt, g, self.block);
         }
         for ((o, &y0), &inv_m) in guess
             .moisture
@@ -392,10 +389,17 @@ fn monotone_hermite(s: f64, y0: f64, y1: f64, m0: f64, m1: f64) -> f64 {
     h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1
 }
 
-impl Esdirk {
-    /// Stage `j`'s net inflow of water per cell in the last accepted step.
-    fn water(&self, j: usize) -> impl Iterator<Item = &f64> {
-        self.kept_g[j].iter().step_by(self.block)
+/// Adds `w` times the water part of the inflows `g` (every block's first value) to `out`.
+fn add_water(out: &mut [f64], w: f64, g: &[f64], block: usize) {
+    if block == 1 {
+        // Contiguous: the loop vectorises.
+        for (o, g) in out.iter_mut().zip(g) {
+            *o += w * g;
+        }
+    } else {
+        for (o, g) in out.iter_mut().zip(g.iter().step_by(block)) {
+            *o += w * g;
+        }
     }
 }
 
@@ -515,6 +519,15 @@ impl Method for Esdirk {
         scale_state(&mut self.kept_end, dt);
         self.kept_cubic = self.start_smooth;
         self.start_smooth = true;
+        // Which cells the step resolves (both end slopes within three times the cell's change:
+        // the monotone box of `monotone_hermite`); their rows come from the quartic.
+        let ends = self.stage[s - 1].moisture.iter().zip(&state.moisture);
+        let slopes = self.kept_start.moisture.iter().zip(&self.kept_end.moisture);
+        for ((r, (&y0, &y1)), (&m0, &m1)) in self.resolved.iter_mut().zip(ends).zip(slopes) {
+            let change = (y1 - y0).abs();
+            *r = m0.abs() <= 3.0 * change && m1.abs() <= 3.0 * change;
+        }
+        self.all_resolved = self.resolved.iter().all(|&r| r);
     }
 
     fn interpolate(&self, s: f64, start: &State, end: &State, out: &mut State) {
@@ -543,34 +556,33 @@ impl Method for Esdirk {
         // a power of dt larger, and rows between steps would set the tolerance a run needs.
         // First the water gained since the step's start, sum_j dt b_j(s) G_j, cell by cell.
         let tab = self.table;
-        for (j, row) in tab.dense.iter().enumerate() {
+        out.moisture.fill(0.0);
+        for (g, row) in self.kept_g.iter().zip(tab.dense) {
             let w = self.kept_dt * s * (row[0] + s * (row[1] + s * (row[2] + s * row[3])));
-            if j == 0 {
-                for (o, g) in out.moisture.iter_mut().zip(self.water(j)) {
-                    *o = w * g;
-                }
-            } else {
-                for (o, g) in out.moisture.iter_mut().zip(self.water(j)) {
-                    *o += w * g;
-                }
-            }
+            add_water(&mut out.moisture, w, g, self.block);
         }
-        let ends = start.moisture.iter().zip(&end.moisture);
-        let slopes = self.kept_start.moisture.iter().zip(&self.kept_end.moisture);
-        let cells = out
+        for ((o, &y0), &inv_m) in out
             .moisture
             .iter_mut()
-            .zip(ends)
-            .zip(slopes)
-            .zip(&self.inv_mass);
-        for (((o, (&y0, &y1)), (&m0, &m1)), &inv_m) in cells {
-            let change = y1 - y0;
-            let resolved = m0.abs() <= 3.0 * change.abs() && m1.abs() <= 3.0 * change.abs();
-            *o = if resolved {
-                y0 + *o * inv_m
-            } else {
-                fallback(y0, y1, m0, m1)
-            };
+            .zip(&start.moisture)
+            .zip(&self.inv_mass)
+        {
+            *o = y0 + *o * inv_m;
+        }
+        if !self.all_resolved {
+            let ends = start.moisture.iter().zip(&end.moisture);
+            let slopes = self.kept_start.moisture.iter().zip(&self.kept_end.moisture);
+            let cells = out
+                .moisture
+                .iter_mut()
+                .zip(&self.resolved)
+                .zip(ends)
+                .zip(slopes);
+            for (((o, &resolved), (&y0, &y1)), (&m0, &m1)) in cells {
+                if !resolved {
+                    *o = fallback(y0, y1, m0, m1);
+                }
+            }
         }
     }
 
