@@ -512,13 +512,54 @@ fn solve_exposed(
     law: FaceLaw,
     t_c: f64,
     x: &[f64],
-    guess: &mut f64,
+    guess: &mut FaceGuess,
 ) -> (f64, [f64; 2], f64) {
     let m = &problem.materials[site.material];
     let (xv, w1, w2) = site.gradient.extrapolate(x, site.cell, law.uses_isotherm());
-    let (j, dj, xs, u) = face_outflow_from(m, site.gradient.reach, law, xv, t_c, *guess);
-    *guess = u;
+    let (j, dj, xs, u) = face_outflow_from(m, site.gradient.reach, law, xv, t_c, guess.at(xv));
+    guess.record(xv, u);
     (j, [dj * w1, dj * w2], xs)
+}
+
+/// The warm start of an exposed face's solve: its last two solutions (X*, unknown), newest
+/// first. Their secant predicts the unknown at the next X*, so the face's Newton iteration
+/// (with a moisture-dependent D or an isotherm) starts one order closer than from the last
+/// value alone and usually stops after one or two updates.
+#[derive(Debug, Clone, Copy)]
+pub struct FaceGuess {
+    last: [(f64, f64); 2],
+}
+
+impl Default for FaceGuess {
+    fn default() -> Self {
+        FaceGuess {
+            last: [(f64::NAN, f64::NAN); 2],
+        }
+    }
+}
+
+impl FaceGuess {
+    /// The unknown predicted at `xv` (NaN when none is known).
+    fn at(&self, xv: f64) -> f64 {
+        let [(x1, u1), (x0, u0)] = self.last;
+        let dx = x1 - x0;
+        // Too close a pair gives a slope of round-off; then the last value alone.
+        if dx.abs() > 1e-9 * (x1.abs() + 1e-9) {
+            let predicted = u1 + (u1 - u0) / dx * (xv - x1);
+            if predicted.is_finite() {
+                return predicted;
+            }
+        }
+        u1
+    }
+
+    /// Keeps the solution `u` at `xv` (a repeat of the newest X* replaces it).
+    fn record(&mut self, xv: f64, u: f64) {
+        if xv != self.last[0].0 {
+            self.last[1] = self.last[0];
+        }
+        self.last[0] = (xv, u);
+    }
 }
 
 /// The surface figures of state `x` alone (only the exposed faces are solved; the interior

@@ -1,7 +1,7 @@
 //! Buffers the solver writes into, sized once from the mesh so that the inner loop never
 //! allocates.
 
-use super::flux::{FaceLaws, NewtonMemory};
+use super::flux::{FaceGuess, FaceLaws, NewtonMemory};
 use super::tridiag::Factors;
 
 /// What a linear problem's factored matrix depends on: (stage coefficient c dt, temperature,
@@ -42,8 +42,8 @@ pub struct Workspace {
     pub linear_solves: u64,
     /// Evaluations of the face derivatives.
     pub jacobian_evaluations: u64,
-    /// The last solved unknown of each exposed face (A, B), to start the next solve from.
-    pub face_guess: [f64; 2],
+    /// The warm start of each exposed face (A, B): its last solutions.
+    pub face_guess: [FaceGuess; 2],
     /// d flux / d (second cell in) at faces A and B (their second-order gradient).
     pub face_far: [f64; 2],
 }
@@ -67,7 +67,7 @@ impl Workspace {
             memory: NewtonMemory::default(),
             linear_solves: 0,
             jacobian_evaluations: 0,
-            face_guess: [f64::NAN; 2],
+            face_guess: [FaceGuess::default(); 2],
             face_far: [0.0; 2],
         }
     }
