@@ -235,16 +235,27 @@ pub fn face_outflow_from(
                 return (k * (xs - x_eq), k * gd / (gd + k), xs, xs);
             }
             let (lo, hi) = if xc > x_eq { (x_eq, xc) } else { (xc, x_eq) };
+            // The partial derivatives at the last point evaluated, within round-off of the root
+            // Newton stops at (its last step was below 1e-8): good for the Jacobian without one
+            // more exponential.
+            let partials = std::cell::Cell::new((f64::NAN, f64::NAN));
             let xs = newton_in_bracket(
                 |xs| {
-                    let (c, _, c_s) = conduction(xs);
+                    let (c, c_c, c_s) = conduction(xs);
+                    partials.set((c_c, c_s));
                     (c - k * (xs - x_eq), c_s - k)
                 },
                 lo,
                 hi,
                 guess,
             );
-            let (_, c_c, c_s) = conduction(xs);
+            let (c_c, c_s) = match partials.get() {
+                (c_c, c_s) if c_c.is_finite() && c_s.is_finite() => (c_c, c_s),
+                _ => {
+                    let (_, c_c, c_s) = conduction(xs);
+                    (c_c, c_s)
+                }
+            };
             let dxs = -c_c / (c_s - k);
             (k * (xs - x_eq), k * dxs, xs, xs)
         }
