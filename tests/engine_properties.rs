@@ -126,9 +126,23 @@ proptest! {
         both in any::<bool>(),
     ) {
         let exposed = if both { Exposed::Both } else { Exposed::A };
-        let r = solve(&case(&layers, air, exposed, 24.0));
+        let c = case(&layers, air, exposed, 24.0);
+        let r = solve(&c);
         // Water that left through the faces equals the change of water held, to round-off.
         prop_assert!(r.mass_balance_error <= 1e-8, "mass balance error {:e}", r.mass_balance_error);
+        // The summary's largest surface-centre difference covers every row, those between
+        // steps included (the tracker ignores rises below 1e-3 x tolerance x the moisture
+        // scale, the range of initial and equilibrium moistures: here below the largest
+        // initial moisture plus 1).
+        let scale = 1.0 + c.layers.iter().map(|l| l.initial_moisture).fold(0.0, f64::max);
+        let noise = 1e-3 * c.tolerance * scale;
+        for row in &r.curves {
+            let d = (row.surface - row.centre).abs();
+            prop_assert!(
+                d <= r.max_surface_centre_difference * (1.0 + 1e-9) + noise,
+                "row at {} s: {d} above the summary's {}", row.time, r.max_surface_centre_difference
+            );
+        }
     }
 
     #[test]

@@ -324,6 +324,12 @@ impl<'p> Driver<'p> {
         let x = self.stepper.moisture();
         let surface = self.p.surface_value(&surfaces);
         let centre = self.p.centre_value(x);
+        self.note_difference(self.stepper.time(), surface, centre);
+    }
+
+    /// Keeps the largest surface-centre difference (at step ends and at the rows between them,
+    /// so a peak inside a long step still counts).
+    fn note_difference(&mut self, t: f64, surface: f64, centre: f64) {
         let d = (surface - centre).abs();
         // The time of the largest difference is when it was first reached: a plateau (the
         // centre untouched while a fixed surface holds) is lifted only by round-off and by the
@@ -333,7 +339,7 @@ impl<'p> Driver<'p> {
         if d > self.max_difference * (1.0 + 1e-9) + noise || self.max_pair.is_none() {
             self.max_difference = d;
             self.max_pair = Some((surface, centre));
-            self.time_of_max = Some(self.stepper.time());
+            self.time_of_max = Some(t);
         }
         self.walker.note_difference(d, (surface, centre));
     }
@@ -362,6 +368,11 @@ impl<'p> Driver<'p> {
             };
             self.stepper.interpolate_into(at, &mut self.scratch);
             let (surfaces, air, step) = self.describe_scratch(at);
+            let (surface, centre) = (
+                self.p.surface_value(&surfaces),
+                self.p.centre_value(&self.scratch.moisture),
+            );
+            self.note_difference(at, surface, centre);
             let sample = Sample {
                 time: at,
                 state: &self.scratch,

@@ -343,7 +343,7 @@ pub fn summary_entries(case: &Case, run: &RunResult, input_sha256: &str) -> Vec<
             "max_surface_centre_difference_pct",
             num(diff.or(Some(0.0))),
             "%",
-            "largest over every time step",
+            "largest over every time step and output row",
             Plain,
         ),
         e(
