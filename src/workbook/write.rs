@@ -921,7 +921,13 @@ pub const STEPS_HEADERS: [&str; 9] = [
 
 /// Profile column headers for the given times (s).
 pub fn profile_header(hours: f64) -> String {
-    format!("moisture_pct_at_{}h", compact(hours))
+    // Below 1e-4 h the six decimals of `compact` would print 0 (and two columns alike).
+    let time = if hours != 0.0 && hours.abs() < 1e-4 {
+        crate::text::as_typed(hours)
+    } else {
+        compact(hours)
+    };
+    format!("moisture_pct_at_{time}h")
 }
 
 /// One row of `profiles`: position (m), each profile's moisture (dry fraction) there, and in
@@ -1211,4 +1217,17 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     #[cfg(unix)]
     let _ = std::fs::File::open(dir).and_then(|d| d.sync_all());
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::profile_header;
+
+    #[test]
+    fn profile_headers_of_tiny_times_are_distinct_from_zero() {
+        assert_eq!(profile_header(0.0), "moisture_pct_at_0h");
+        assert_eq!(profile_header(24.0), "moisture_pct_at_24h");
+        assert_eq!(profile_header(1e-9), "moisture_pct_at_1e-9h");
+        assert_ne!(profile_header(1e-7), profile_header(0.0));
+    }
 }
