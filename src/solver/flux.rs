@@ -451,6 +451,8 @@ pub fn evaluate_faces_with(
     derivatives: bool,
 ) -> Surfaces {
     let n = x.len();
+    // The derivatives are about to be rewritten, for whatever laws and temperature these are.
+    ws.derivatives_for = None;
     for (k, face) in problem.inner.iter().enumerate() {
         let k = k + 1;
         let (xl, xr) = (x[k - 1], x[k]);
@@ -726,8 +728,16 @@ pub fn solve_stage(
     ws: &mut Workspace,
     settings: &NewtonSettings,
 ) -> Result<(Surfaces, usize), NewtonFailure> {
-    if settings.linear && ws.factored_for == Some((c_dt, t_c, *laws)) {
-        return solve_factored_linear_stage(problem, laws, t_c, c_dt, b, x, ws);
+    if settings.linear {
+        let key = (c_dt, t_c, *laws);
+        if ws.factored_for != Some(key) && ws.derivatives_for == Some((t_c, *laws)) {
+            // A new step size only: the derivatives of a linear problem stay as they were.
+            assemble_and_factor(problem, c_dt, ws)?;
+            ws.factored_for = Some(key);
+        }
+        if ws.factored_for == Some(key) {
+            return solve_factored_linear_stage(problem, laws, t_c, c_dt, b, x, ws);
+        }
     }
     let n = x.len();
     let areas = &problem.mesh.areas;
@@ -803,18 +813,9 @@ pub fn solve_stage(
         // within its dead zone): its elimination is reused.
         let key = (c_dt, t_c, *laws);
         if !(settings.linear && ws.factored_for == Some(key)) {
-            for i in 0..n {
-                ws.lower[i] = -c_dt * areas[i] * ws.d_left[i];
-                ws.diag[i] =
-                    mass[i] - c_dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
-                ws.upper[i] = c_dt * areas[i + 1] * ws.d_right[i + 1];
-            }
-            add_far_face_terms(ws, areas, c_dt);
-            if !ws.factors.factor(&ws.lower, &ws.diag, &ws.upper) {
-                ws.factored_for = None;
-                return Err(NewtonFailure::Breakdown);
-            }
+            assemble_and_factor(problem, c_dt, ws)?;
             ws.factored_for = settings.linear.then_some(key);
+            ws.derivatives_for = settings.linear.then_some((t_c, *laws));
         }
         if !ws.factors.solve(&mut ws.rhs) {
             return Err(NewtonFailure::Breakdown);
@@ -926,6 +927,27 @@ fn finish_stage(
         s.out_b += (1.0 - share_a) * missing / f.area;
     }
     s
+}
+
+/// Builds the stage matrix `m - c_dt J` from the face derivatives in the workspace and factors it.
+fn assemble_and_factor(
+    problem: &Problem,
+    c_dt: f64,
+    ws: &mut Workspace,
+) -> Result<(), NewtonFailure> {
+    let areas = &problem.mesh.areas;
+    let mass = &problem.dry_mass;
+    for i in 0..mass.len() {
+        ws.lower[i] = -c_dt * areas[i] * ws.d_left[i];
+        ws.diag[i] = mass[i] - c_dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
+        ws.upper[i] = c_dt * areas[i + 1] * ws.d_right[i + 1];
+    }
+    add_far_face_terms(ws, areas, c_dt);
+    if !ws.factors.factor(&ws.lower, &ws.diag, &ws.upper) {
+        ws.factored_for = None;
+        return Err(NewtonFailure::Breakdown);
+    }
+    Ok(())
 }
 
 /// The exposed faces' dependence on the second cell in (their second-order gradient, see

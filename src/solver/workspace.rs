@@ -30,6 +30,10 @@ pub struct Workspace {
     /// What the factors were built for, when they may be reused: a linear problem's matrix
     /// depends only on the stage coefficient, the temperature and the face laws.
     pub factored_for: Option<FactorKey>,
+    /// What the face derivatives (`d_left`, `d_right`, `face_far`) of a linear problem were
+    /// evaluated for (temperature, face laws): they do not depend on the state or the step, so
+    /// a new step size only needs a new elimination.
+    pub derivatives_for: Option<(f64, FaceLaws)>,
     /// The last Newton update, n (kept for backtracking).
     pub delta: Vec<f64>,
     /// Net water inflow of each cell at the last evaluation, n.
@@ -61,6 +65,7 @@ impl Workspace {
             rhs: vec![0.0; n],
             factors: Factors::new(n),
             factored_for: None,
+            derivatives_for: None,
             delta: vec![0.0; n],
             inflow: vec![0.0; n],
             jacobian_valid: false,
