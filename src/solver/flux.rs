@@ -729,6 +729,9 @@ pub fn solve_stage(
     settings: &NewtonSettings,
 ) -> Result<(Surfaces, usize), NewtonFailure> {
     if settings.linear {
+        // A linear problem's matrix stays the same while c dt, the temperature and the face
+        // laws do (every stage of a step shares c dt, and the controller keeps the step size
+        // within its dead zone): its elimination is reused, and solved directly.
         let key = (c_dt, t_c, *laws);
         if ws.factored_for != Some(key) && ws.derivatives_for == Some((t_c, *laws)) {
             // A new step size only: the derivatives of a linear problem stay as they were.
@@ -808,15 +811,10 @@ pub fn solve_stage(
         }
         previous = worst;
         backtracks = 0;
-        // A linear problem's matrix stays the same while c dt, the temperature and the face
-        // laws do (both stages of a step share c dt, and the controller keeps the step size
-        // within its dead zone): its elimination is reused.
-        let key = (c_dt, t_c, *laws);
-        if !(settings.linear && ws.factored_for == Some(key)) {
-            assemble_and_factor(problem, c_dt, ws)?;
-            ws.factored_for = settings.linear.then_some(key);
-            ws.derivatives_for = settings.linear.then_some((t_c, *laws));
-        }
+        // A linear stage gets here only when its elimination cannot be reused (see the top).
+        assemble_and_factor(problem, c_dt, ws)?;
+        ws.factored_for = settings.linear.then_some((c_dt, t_c, *laws));
+        ws.derivatives_for = settings.linear.then_some((t_c, *laws));
         if !ws.factors.solve(&mut ws.rhs) {
             return Err(NewtonFailure::Breakdown);
         }
