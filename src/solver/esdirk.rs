@@ -292,26 +292,16 @@ impl Esdirk {
             }
             return;
         }
-        let f = (self.table.c[i] / self.table.c[i - 1]).min(2.0);
-        guess.update_with(y, &done[i - 1], |_, a, b| a + f * (b - a));
-        if self.block != 1 {
+        if self.block == 1 {
+            // Moisture alone: the stages' inflows so far integrated to this stage's time by the
+            // polynomial through them (an explicit formula of order i), far closer than the line.
+            let weights = self.predictor[i].iter().map(|w| w * dt);
+            moisture_gaining(&mut guess.moisture, y, &self.inv_mass, &self.g, weights, 1);
+        } else {
             // Coupled runs keep the line: with the quadrature their loose-tolerance runs
             // (0.05-0.1) stopped Newton at iterates whose surface ran hotter than the air.
-            return;
-        }
-        // Moisture: the stages' inflows so far integrated to this stage's time by the
-        // polynomial through them (an explicit formula of order i), far closer than the line.
-        guess.moisture.fill(0.0);
-        for (g, &w) in self.g.iter().zip(&self.predictor[i]) {
-            add_water(&mut guess.moisture, w * dt, g, self.block);
-        }
-        for ((o, &y0), &inv_m) in guess
-            .moisture
-            .iter_mut()
-            .zip(&y.moisture)
-            .zip(&self.inv_mass)
-        {
-            *o = y0 + *o * inv_m;
+            let f = (self.table.c[i] / self.table.c[i - 1]).min(2.0);
+            guess.update_with(y, &done[i - 1], |_, a, b| a + f * (b - a));
         }
     }
 }
@@ -394,17 +384,32 @@ fn monotone_hermite(s: f64, y0: f64, y1: f64, m0: f64, m1: f64) -> f64 {
     h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1
 }
 
-/// Adds `w` times the water part of the inflows `g` (every block's first value) to `out`.
-fn add_water(out: &mut [f64], w: f64, g: &[f64], block: usize) {
-    if block == 1 {
-        // Contiguous: the loop vectorises.
-        for (o, g) in out.iter_mut().zip(g) {
-            *o += w * g;
+/// The moisture of each cell after `start` gains the water sum_j w_j G_j of the inflows `g`
+/// (every block's first value; water held is dry mass times moisture in every model) with
+/// weights `w` (s), into `out`: the stage guesses and the dense output both.
+fn moisture_gaining(
+    out: &mut [f64],
+    start: &State,
+    inv_mass: &[f64],
+    g: &[Vec<f64>],
+    w: impl Iterator<Item = f64>,
+    block: usize,
+) {
+    out.fill(0.0);
+    for (g, w) in g.iter().zip(w) {
+        if block == 1 {
+            // Contiguous: the loop vectorises.
+            for (o, g) in out.iter_mut().zip(g) {
+                *o += w * g;
+            }
+        } else {
+            for (o, g) in out.iter_mut().zip(g.iter().step_by(block)) {
+                *o += w * g;
+            }
         }
-    } else {
-        for (o, g) in out.iter_mut().zip(g.iter().step_by(block)) {
-            *o += w * g;
-        }
+    }
+    for ((o, &y0), &inv_m) in out.iter_mut().zip(&start.moisture).zip(inv_mass) {
+        *o = y0 + *o * inv_m;
     }
 }
 
@@ -560,20 +565,17 @@ impl Method for Esdirk {
         // fallback. The quartic is as accurate as the steps themselves; the cubic's error is
         // a power of dt larger, and rows between steps would set the tolerance a run needs.
         // First the water gained since the step's start, sum_j dt b_j(s) G_j, cell by cell.
-        let tab = self.table;
-        out.moisture.fill(0.0);
-        for (g, row) in self.kept_g.iter().zip(tab.dense) {
-            let w = self.kept_dt * s * (row[0] + s * (row[1] + s * (row[2] + s * row[3])));
-            add_water(&mut out.moisture, w, g, self.block);
-        }
-        for ((o, &y0), &inv_m) in out
-            .moisture
-            .iter_mut()
-            .zip(&start.moisture)
-            .zip(&self.inv_mass)
-        {
-            *o = y0 + *o * inv_m;
-        }
+        let weights = (self.table.dense.iter())
+            .map(|row| self.kept_dt * s * (row[0] + s * (row[1] + s * (row[2] + s * row[3]))));
+        let (inv_mass, block) = (&self.inv_mass, self.block);
+        moisture_gaining(
+            &mut out.moisture,
+            start,
+            inv_mass,
+            &self.kept_g,
+            weights,
+            block,
+        );
         if !self.all_resolved {
             let ends = start.moisture.iter().zip(&end.moisture);
             let slopes = self.kept_start.moisture.iter().zip(&self.kept_end.moisture);
