@@ -919,15 +919,19 @@ pub const STEPS_HEADERS: [&str; 9] = [
     "rh_pct",
 ];
 
-/// Profile column headers for the given times (s).
-pub fn profile_header(hours: f64) -> String {
-    // Below 1e-4 h the six decimals of `compact` would print 0 (and two columns alike).
-    let time = if hours != 0.0 && hours.abs() < 1e-4 {
+/// A profile time in a column header: without trailing zeros, and below 1e-4 h as typed (the
+/// six decimals of `compact` would print 0 there, and two columns alike).
+fn profile_time(hours: f64) -> String {
+    if hours != 0.0 && hours.abs() < 1e-4 {
         crate::text::as_typed(hours)
     } else {
         compact(hours)
-    };
-    format!("moisture_pct_at_{time}h")
+    }
+}
+
+/// The header of a profile's moisture column.
+pub fn profile_header(hours: f64) -> String {
+    format!("moisture_pct_at_{}h", profile_time(hours))
 }
 
 /// One row of `profiles`: position (m), each profile's moisture (dry fraction) there, and in
@@ -936,7 +940,7 @@ type ProfileRow = (f64, Vec<Option<f64>>, Vec<Option<f64>>);
 
 /// The header of a profile's temperature column (coupled runs).
 pub fn profile_temp_header(hours: f64) -> String {
-    format!("temp_c_at_{}h", compact(hours))
+    format!("temp_c_at_{}h", profile_time(hours))
 }
 
 /// Whether the run solved temperatures (then `profiles` has `temp_c_at_<H>h` columns).
@@ -1221,7 +1225,7 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
 
 #[cfg(test)]
 mod tests {
-    use super::profile_header;
+    use super::{profile_header, profile_temp_header};
 
     #[test]
     fn profile_headers_of_tiny_times_are_distinct_from_zero() {
@@ -1229,5 +1233,6 @@ mod tests {
         assert_eq!(profile_header(24.0), "moisture_pct_at_24h");
         assert_eq!(profile_header(1e-9), "moisture_pct_at_1e-9h");
         assert_ne!(profile_header(1e-7), profile_header(0.0));
+        assert_eq!(profile_temp_header(1e-9), "temp_c_at_1e-9h");
     }
 }
