@@ -39,6 +39,7 @@ use super::model::{Model, Rates};
 use super::problem::Problem;
 use super::state::State;
 use super::stepper::Exchanged;
+use super::sums::weighted_squares;
 
 /// An ESDIRK pair: the strictly lower part of A row by row (stage 1 on; stage 0 is y_n), the
 /// diagonal gamma, the nodes c and the embedded weights bhat. b is the last row of A with gamma.
@@ -475,13 +476,18 @@ impl Method for Esdirk {
         if !model.filter(&mut self.err) {
             return Err(NewtonFailure::Breakdown);
         }
-        let mut sum = 0.0;
-        for (cell, &w) in self.err.chunks_exact(self.block).zip(&self.weight) {
-            for (e, scale) in cell.iter().zip(self.scale) {
-                let v = e / scale;
-                sum += w * v * v;
+        let sum = if self.block == 1 {
+            weighted_squares(&self.weight, &self.err) / (self.scale[0] * self.scale[0])
+        } else {
+            let mut sum = 0.0;
+            for (cell, &w) in self.err.chunks_exact(self.block).zip(&self.weight) {
+                for (e, scale) in cell.iter().zip(self.scale) {
+                    let v = e / scale;
+                    sum += w * v * v;
+                }
             }
-        }
+            sum
+        };
         let error = sum.sqrt();
         if !error.is_finite() {
             return Err(NewtonFailure::Breakdown);

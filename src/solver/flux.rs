@@ -902,7 +902,7 @@ fn finish_stage(
     for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x)).zip(b) {
         *g = (m * v - bi) * per_time;
     }
-    let total: f64 = ws.inflow.iter().sum();
+    let total = super::sums::sum(&ws.inflow);
     let mut s = exposed_surfaces(problem, laws, t_c, x, ws);
     let (flow_a, flow_b) = (
         problem.face_a.map_or(0.0, |f| f.area * s.out_a),

@@ -20,6 +20,7 @@ pub mod problem;
 mod schedule;
 pub mod state;
 mod stepper;
+mod sums;
 pub mod tridiag;
 mod workspace;
 

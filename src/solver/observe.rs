@@ -80,13 +80,8 @@ impl Observer for CurveRecorder<'_> {
             .layer_cells
             .iter()
             .map(|r| {
-                let m: f64 = p.dry_mass[r.clone()].iter().sum();
-                let w: f64 = p.dry_mass[r.clone()]
-                    .iter()
-                    .zip(&x[r.clone()])
-                    .map(|(a, b)| a * b)
-                    .sum();
-                w / m
+                let mass = &p.dry_mass[r.clone()];
+                super::sums::dot(mass, &x[r.clone()]) / super::sums::sum(mass)
             })
             .collect();
         let temps = &s.state.temperature;

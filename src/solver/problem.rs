@@ -481,18 +481,17 @@ impl Problem {
 
     /// Total dry mass per unit outer area, kg/m2.
     pub fn total_dry_mass(&self) -> f64 {
-        self.dry_mass.iter().sum()
+        super::sums::sum(&self.dry_mass)
     }
 
     /// Dry-mass weighted mean moisture of `x`.
     pub fn mean(&self, x: &[f64]) -> f64 {
-        let w: f64 = self.dry_mass.iter().zip(x).map(|(m, x)| m * x).sum();
-        w / self.total_dry_mass()
+        self.water(x) / self.total_dry_mass()
     }
 
     /// Water held per unit outer area, kg/m2.
     pub fn water(&self, x: &[f64]) -> f64 {
-        self.dry_mass.iter().zip(x).map(|(m, x)| m * x).sum()
+        super::sums::dot(&self.dry_mass, x)
     }
 
     /// Moisture at "the" surface: face A, or face B when only B is exposed.
