@@ -279,13 +279,14 @@ impl Esdirk {
     /// one Newton update usually suffices, instead of thousands); otherwise the line through y_n
     /// and the stage before, at most twice as far.
     fn predict(&mut self, i: usize, y: &State, dt: f64) {
+        if self.settings.linear {
+            // One update from any finite guess solves a linear stage exactly (its faces are
+            // linearised at the step's start; a non-finite guess is restarted from there).
+            return;
+        }
         let (done, rest) = self.stage.split_at_mut(i);
         let guess = &mut rest[0];
         guess.clone_from(y);
-        if self.settings.linear {
-            // One update from any guess solves a linear stage exactly.
-            return;
-        }
         if i == 1 {
             if self.start_smooth {
                 let f = self.table.c[1] * dt;
@@ -440,13 +441,25 @@ impl Method for Esdirk {
         model.conserved(y, &mut self.u0);
         let mut iterations = 0;
         for i in 1..s {
-            self.rhs.copy_from_slice(&self.u0);
-            for j in 0..i {
-                let a = tab.a(i, j) * dt;
-                if a != 0.0 {
-                    for (r, g) in self.rhs.iter_mut().zip(&self.g[j]) {
-                        *r += a * g;
-                    }
+            // rhs = U(y_n) + dt sum_j a_ij G_j, two inflows per sweep of the cells.
+            let (u0, g) = (&self.u0, &self.g);
+            let a = |j: usize| tab.a(i, j) * dt;
+            let a0 = a(0);
+            for (r, (u, g0)) in self.rhs.iter_mut().zip(u0.iter().zip(&g[0])) {
+                *r = u + a0 * g0;
+            }
+            let mut j = 1;
+            while j + 1 < i {
+                let (a0, a1) = (a(j), a(j + 1));
+                for (r, (g0, g1)) in self.rhs.iter_mut().zip(g[j].iter().zip(&g[j + 1])) {
+                    *r += a0 * g0 + a1 * g1;
+                }
+                j += 2;
+            }
+            if j < i {
+                let a0 = a(j);
+                for (r, g0) in self.rhs.iter_mut().zip(&g[j]) {
+                    *r += a0 * g0;
                 }
             }
             self.predict(i, y, dt);
