@@ -182,6 +182,10 @@ pub static ESDIRK43: Tableau = Tableau {
     ],
 };
 
+/// The most stages a table may have (the dense output and the guesses keep their weights on the
+/// stack).
+const MAX_STAGES: usize = 8;
+
 /// A stiffly accurate ESDIRK pair driven as a [`Method`].
 pub struct Esdirk {
     table: &'static Tableau,
@@ -237,6 +241,10 @@ impl Esdirk {
             problem.tolerance * t_scale,
         ];
         let s = table.stages;
+        assert!(
+            s <= MAX_STAGES,
+            "a table of {s} stages needs a larger MAX_STAGES"
+        );
         Esdirk {
             table,
             block,
@@ -397,14 +405,46 @@ fn moisture_gaining(
     w: impl Iterator<Item = f64>,
     block: usize,
 ) {
-    out.fill(0.0);
-    for (g, w) in g.iter().zip(w) {
-        if block == 1 {
-            // Contiguous: the loop vectorises.
-            for (o, g) in out.iter_mut().zip(g) {
-                *o += w * g;
+    if block == 1 {
+        // Contiguous: the loops vectorise; two inflows per sweep of the cells.
+        let mut terms = [(0.0, &[][..]); MAX_STAGES];
+        let mut count = 0;
+        for (t, (w, g)) in terms.iter_mut().zip(w.zip(g)) {
+            *t = (w, &g[..]);
+            count += 1;
+        }
+        let mut pairs = terms[..count].chunks(2);
+        match pairs.next() {
+            Some([(w0, g0), (w1, g1)]) => {
+                for (o, (a, b)) in out.iter_mut().zip(g0.iter().zip(g1.iter())) {
+                    *o = w0 * a + w1 * b;
+                }
             }
-        } else {
+            Some([(w0, g0)]) => {
+                for (o, a) in out.iter_mut().zip(g0.iter()) {
+                    *o = w0 * a;
+                }
+            }
+            _ => out.fill(0.0),
+        }
+        for pair in pairs {
+            match pair {
+                [(w0, g0), (w1, g1)] => {
+                    for (o, (a, b)) in out.iter_mut().zip(g0.iter().zip(g1.iter())) {
+                        *o += w0 * a + w1 * b;
+                    }
+                }
+                [(w0, g0)] => {
+                    for (o, a) in out.iter_mut().zip(g0.iter()) {
+                        *o += w0 * a;
+                    }
+                }
+                _ => {}
+            }
+        }
+    } else {
+        out.fill(0.0);
+        for (g, w) in g.iter().zip(w) {
             for (o, g) in out.iter_mut().zip(g.iter().step_by(block)) {
                 *o += w * g;
             }

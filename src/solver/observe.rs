@@ -37,6 +37,8 @@ pub trait Observer {
 pub struct CurveRecorder<'p> {
     p: &'p Problem,
     initial_mean: f64,
+    /// Dry mass of each layer.
+    layer_mass: Vec<f64>,
     next: u64,
     /// Rows so far, the first at time 0.
     pub rows: Vec<CurveRow>,
@@ -48,6 +50,9 @@ impl<'p> CurveRecorder<'p> {
         CurveRecorder {
             p,
             initial_mean: p.mean(&p.initial),
+            layer_mass: (p.mesh.layer_cells.iter())
+                .map(|r| super::sums::sum(&p.dry_mass[r.clone()]))
+                .collect(),
             next: 1,
             rows: Vec::new(),
         }
@@ -75,14 +80,8 @@ impl Observer for CurveRecorder<'_> {
             let span = self.initial_mean - eq;
             (span.abs() > 1e-12 * self.initial_mean.abs().max(1e-12)).then(|| (mean - eq) / span)
         });
-        let layer_means = p
-            .mesh
-            .layer_cells
-            .iter()
-            .map(|r| {
-                let mass = &p.dry_mass[r.clone()];
-                super::sums::dot(mass, &x[r.clone()]) / super::sums::sum(mass)
-            })
+        let layer_means = (p.mesh.layer_cells.iter().zip(&self.layer_mass))
+            .map(|(r, m)| super::sums::dot(&p.dry_mass[r.clone()], &x[r.clone()]) / m)
             .collect();
         let temps = &s.state.temperature;
         let (mean_temp_c, surface_temp_c, centre_temp_c) = if temps.is_empty() {

@@ -238,6 +238,8 @@ pub struct Problem {
     pub cell_material: Vec<usize>,
     /// Dry mass of each cell per unit outer area, kg/m2.
     pub dry_mass: Vec<f64>,
+    /// Their sum (every mean moisture divides by it).
+    total_dry_mass: f64,
     /// Interior faces 1..n-1 (index k-1 for face k).
     pub inner: Vec<InnerFace>,
     /// Face A when exposed.
@@ -449,6 +451,7 @@ impl Problem {
             mesh,
             materials,
             cell_material,
+            total_dry_mass: super::sums::sum(&dry_mass),
             dry_mass,
             inner,
             face_a,
@@ -481,7 +484,7 @@ impl Problem {
 
     /// Total dry mass per unit outer area, kg/m2.
     pub fn total_dry_mass(&self) -> f64 {
-        super::sums::sum(&self.dry_mass)
+        self.total_dry_mass
     }
 
     /// Dry-mass weighted mean moisture of `x`.
