@@ -394,6 +394,42 @@ fn monotone_hermite(s: f64, y0: f64, y1: f64, m0: f64, m1: f64) -> f64 {
     h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1
 }
 
+/// `out = sum_j w_j v_j` over the cells for the (weight, values) `terms`, two terms per sweep
+/// of the cells (contiguous, so the loops vectorise): the stages' right-hand sides, the error
+/// estimate and the dense output each combine up to six stage inflows, and reading and writing
+/// the cells once per pair instead of once per term is a measurable part of a step.
+fn combine(out: &mut [f64], terms: &[(f64, &[f64])]) {
+    let mut pairs = terms.chunks(2);
+    match pairs.next() {
+        Some(&[(w0, a), (w1, b)]) => {
+            for (o, (x, y)) in out.iter_mut().zip(a.iter().zip(b)) {
+                *o = w0 * x + w1 * y;
+            }
+        }
+        Some(&[(w0, a)]) => {
+            for (o, x) in out.iter_mut().zip(a) {
+                *o = w0 * x;
+            }
+        }
+        _ => out.fill(0.0),
+    }
+    for pair in pairs {
+        match *pair {
+            [(w0, a), (w1, b)] => {
+                for (o, (x, y)) in out.iter_mut().zip(a.iter().zip(b)) {
+                    *o += w0 * x + w1 * y;
+                }
+            }
+            [(w0, a)] => {
+                for (o, x) in out.iter_mut().zip(a) {
+                    *o += w0 * x;
+                }
+            }
+            _ => {}
+        }
+    }
+}
+
 /// The moisture of each cell after `start` gains the water sum_j w_j G_j of the inflows `g`
 /// (every block's first value; water held is dry mass times moisture in every model) with
 /// weights `w` (s), into `out`: the stage guesses and the dense output both.
@@ -406,42 +442,13 @@ fn moisture_gaining(
     block: usize,
 ) {
     if block == 1 {
-        // Contiguous: the loops vectorise; two inflows per sweep of the cells.
         let mut terms = [(0.0, &[][..]); MAX_STAGES];
         let mut count = 0;
         for (t, (w, g)) in terms.iter_mut().zip(w.zip(g)) {
             *t = (w, &g[..]);
             count += 1;
         }
-        let mut pairs = terms[..count].chunks(2);
-        match pairs.next() {
-            Some([(w0, g0), (w1, g1)]) => {
-                for (o, (a, b)) in out.iter_mut().zip(g0.iter().zip(g1.iter())) {
-                    *o = w0 * a + w1 * b;
-                }
-            }
-            Some([(w0, g0)]) => {
-                for (o, a) in out.iter_mut().zip(g0.iter()) {
-                    *o = w0 * a;
-                }
-            }
-            _ => out.fill(0.0),
-        }
-        for pair in pairs {
-            match pair {
-                [(w0, g0), (w1, g1)] => {
-                    for (o, (a, b)) in out.iter_mut().zip(g0.iter().zip(g1.iter())) {
-                        *o += w0 * a + w1 * b;
-                    }
-                }
-                [(w0, g0)] => {
-                    for (o, a) in out.iter_mut().zip(g0.iter()) {
-                        *o += w0 * a;
-                    }
-                }
-                _ => {}
-            }
-        }
+        combine(out, &terms[..count]);
     } else {
         out.fill(0.0);
         for (g, w) in g.iter().zip(w) {
@@ -481,27 +488,13 @@ impl Method for Esdirk {
         model.conserved(y, &mut self.u0);
         let mut iterations = 0;
         for i in 1..s {
-            // rhs = U(y_n) + dt sum_j a_ij G_j, two inflows per sweep of the cells.
-            let (u0, g) = (&self.u0, &self.g);
-            let a = |j: usize| tab.a(i, j) * dt;
-            let a0 = a(0);
-            for (r, (u, g0)) in self.rhs.iter_mut().zip(u0.iter().zip(&g[0])) {
-                *r = u + a0 * g0;
+            // rhs = U(y_n) + dt sum_j a_ij G_j.
+            let mut terms = [(0.0, &[][..]); MAX_STAGES + 1];
+            terms[0] = (1.0, &self.u0[..]);
+            for (t, (j, g)) in terms[1..].iter_mut().zip(self.g[..i].iter().enumerate()) {
+                *t = (tab.a(i, j) * dt, &g[..]);
             }
-            let mut j = 1;
-            while j + 1 < i {
-                let (a0, a1) = (a(j), a(j + 1));
-                for (r, (g0, g1)) in self.rhs.iter_mut().zip(g[j].iter().zip(&g[j + 1])) {
-                    *r += a0 * g0 + a1 * g1;
-                }
-                j += 2;
-            }
-            if j < i {
-                let a0 = a(j);
-                for (r, g0) in self.rhs.iter_mut().zip(&g[j]) {
-                    *r += a0 * g0;
-                }
-            }
+            combine(&mut self.rhs, &terms[..=i]);
             self.predict(i, y, dt);
             let (r, it) = model.solve_stage(
                 &conditions.at(t + tab.c[i] * dt),
@@ -517,15 +510,11 @@ impl Method for Esdirk {
         }
         model.state_rates(&self.stage[s - 1], &self.g[s - 1], &mut self.end_slope);
         // Embedded error estimate, filtered by the stage matrix.
-        self.err.fill(0.0);
-        for j in 0..s {
-            let w = dt * (tab.b(j) - tab.b_hat[j]);
-            if w != 0.0 {
-                for (e, g) in self.err.iter_mut().zip(&self.g[j]) {
-                    *e += w * g;
-                }
-            }
+        let mut terms = [(0.0, &[][..]); MAX_STAGES];
+        for (t, (j, g)) in terms.iter_mut().zip(self.g.iter().enumerate()) {
+            *t = (dt * (tab.b(j) - tab.b_hat[j]), &g[..]);
         }
+        combine(&mut self.err, &terms[..s]);
         if !model.filter(&mut self.err) {
             return Err(NewtonFailure::Breakdown);
         }
