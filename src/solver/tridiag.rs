@@ -50,10 +50,14 @@ impl Factors {
         }
         let m = self.middle;
         let (above, below) = (m, n - m - 1);
-        // Pivots of the outermost rows, then both chains inwards, side by side.
+        // Pivots of the outermost rows, then both chains inwards, side by side. Each chain
+        // carries only the last reciprocal pivot, in a register: the product of the two
+        // couplings it multiplies is formed off the chain, so a row costs the chain one
+        // multiply, one subtract and the division.
         let mut finite = true;
+        let (mut inv_top, mut inv_bottom) = (0.0, 0.0);
         if above > 0 {
-            let inv_top = 1.0 / diag[0];
+            inv_top = 1.0 / diag[0];
             self.inverse[0] = inv_top;
             self.scaled[0] = 0.0;
             self.eliminated[0] = upper[0] * inv_top;
@@ -61,7 +65,7 @@ impl Factors {
         }
         if below > 0 {
             let b = n - 1;
-            let inv_bottom = 1.0 / diag[b];
+            inv_bottom = 1.0 / diag[b];
             self.inverse[b] = inv_bottom;
             self.scaled[b] = 0.0;
             self.eliminated[b] = lower[b] * inv_bottom;
@@ -69,14 +73,14 @@ impl Factors {
         }
         for k in 1..above {
             let i = k;
-            let inv_top = 1.0 / (diag[i] - lower[i] * self.eliminated[i - 1]);
+            inv_top = 1.0 / (diag[i] - (lower[i] * upper[i - 1]) * inv_top);
             self.inverse[i] = inv_top;
             self.scaled[i] = lower[i] * inv_top;
             self.eliminated[i] = upper[i] * inv_top;
             finite &= inv_top.is_finite();
             if k < below {
                 let j = n - 1 - k;
-                let inv_bottom = 1.0 / (diag[j] - upper[j] * self.eliminated[j + 1]);
+                inv_bottom = 1.0 / (diag[j] - (upper[j] * lower[j + 1]) * inv_bottom);
                 self.inverse[j] = inv_bottom;
                 self.scaled[j] = upper[j] * inv_bottom;
                 self.eliminated[j] = lower[j] * inv_bottom;
