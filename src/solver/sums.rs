@@ -18,39 +18,27 @@ pub fn sum(a: &[f64]) -> f64 {
 
 /// Sum of `a[i] b[i]` over the shorter of the two.
 pub fn dot(a: &[f64], b: &[f64]) -> f64 {
-    let n = a.len().min(b.len());
-    let (a, b) = (&a[..n], &b[..n]);
-    let mut lanes = [0.0; 4];
-    let (ca, cb) = (a.chunks_exact(4), b.chunks_exact(4));
-    let tail: f64 = ca
-        .remainder()
-        .iter()
-        .zip(cb.remainder())
-        .map(|(x, y)| x * y)
-        .sum();
-    for (x, y) in ca.zip(cb) {
-        for ((l, p), q) in lanes.iter_mut().zip(x).zip(y) {
-            *l += p * q;
-        }
-    }
-    (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]) + tail
+    sum_of_pairs(a, b, |x, y| x * y)
 }
 
 /// Sum of `w[i] e[i]²` over the shorter of the two.
 pub fn weighted_squares(w: &[f64], e: &[f64]) -> f64 {
-    let n = w.len().min(e.len());
-    let (w, e) = (&w[..n], &e[..n]);
+    sum_of_pairs(w, e, |x, y| x * y * y)
+}
+
+/// Sum of `term(a[i], b[i])` over the shorter of the two, with four running totals.
+#[inline]
+fn sum_of_pairs(a: &[f64], b: &[f64], term: impl Fn(f64, f64) -> f64) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
     let mut lanes = [0.0; 4];
-    let (cw, ce) = (w.chunks_exact(4), e.chunks_exact(4));
-    let tail: f64 = cw
-        .remainder()
-        .iter()
-        .zip(ce.remainder())
-        .map(|(x, y)| x * y * y)
+    let (ca, cb) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = (ca.remainder().iter().zip(cb.remainder()))
+        .map(|(&x, &y)| term(x, y))
         .sum();
-    for (x, y) in cw.zip(ce) {
-        for ((l, p), q) in lanes.iter_mut().zip(x).zip(y) {
-            *l += p * q * q;
+    for (x, y) in ca.zip(cb) {
+        for ((l, &p), &q) in lanes.iter_mut().zip(x).zip(y) {
+            *l += term(p, q);
         }
     }
     (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]) + tail
