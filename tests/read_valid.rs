@@ -618,3 +618,30 @@ fn range_problems_quote_the_value_and_range_in_the_users_unit() {
     // Not said again in SI by the case checks.
     assert_eq!(problems.len(), 2, "{problems:#?}");
 }
+
+#[test]
+fn an_empty_table_is_reported_where_its_first_row_goes_and_nothing_follows_from_it() {
+    // Header only: the first layer would go in A2. An air-side schedule cannot be judged
+    // without a surface material, so it adds nothing to "no layer is defined".
+    let mut s = minimal_case();
+    s[2].1.truncate(1);
+    s[3].1 = vec![
+        texts(&["dry_bulb_c", "rh_pct", "hm_m_s"]),
+        vec![C::N(30.0), C::N(40.0), C::N(0.01)],
+    ];
+    let found = problems(&s);
+    assert_eq!(at(&found, "layers", "A2").problem, "no layer is defined");
+    assert_eq!(found.len(), 1, "{found:#?}");
+    // No header either: A1, where the header goes.
+    s[2].1.clear();
+    let found = problems(&s);
+    assert_eq!(at(&found, "layers", "A1").problem, "no layer is defined");
+    // An empty schedule the same way.
+    let mut s = minimal_case();
+    s[3].1.truncate(1);
+    let found = problems(&s);
+    assert_eq!(
+        at(&found, "schedule", "A2").problem,
+        "the schedule has no step"
+    );
+}

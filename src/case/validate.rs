@@ -665,6 +665,11 @@ fn check_schedule(case: &Case, c: &mut Checker) {
         if !exposed {
             continue;
         }
+        if case.layers.is_empty() {
+            // Without layers there is no surface material: the exchange's needs (an
+            // isotherm) cannot be judged, and "no layer is defined" says what is wrong.
+            continue;
+        }
         let humid = s.humidity != Humidity::Unspecified;
         match s.exchange {
             Exchange::Unspecified => c.push(

@@ -323,6 +323,14 @@ impl<F: Fn(&'static str) -> Loc> Places<'_, '_, F> {
             None => t.whole.clone(),
         };
         match place {
+            // An empty table: where its first row would go.
+            Place::Sheet("layers") if self.layers.rows.is_empty() => self.layers.first_row_loc(),
+            Place::Sheet("materials") if self.materials.rows.is_empty() => {
+                self.materials.first_row_loc()
+            }
+            Place::Sheet("schedule") if self.schedule.rows.is_empty() => {
+                self.schedule.first_row_loc()
+            }
             Place::Sheet(s) => (self.sheet)(s),
             Place::Case(k) => self.keys.get(k).1,
             Place::Layer { index, column } => row_cell(self.layers, *index, column),

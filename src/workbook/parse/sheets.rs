@@ -318,6 +318,17 @@ impl<'b> Table<'b> {
         }
     }
 
+    /// Where a table without data rows would take its first one (the cell under the header's
+    /// first cell; A1, where the header goes, on a sheet without one), for a message that the
+    /// table is empty; the whole sheet when there is no such sheet.
+    pub fn first_row_loc(&self) -> Loc {
+        match self.header_row {
+            Some(header) => cell_loc(&self.whole.sheet, self.order, header + 1, self.first_col),
+            None if self.present => cell_loc(&self.whole.sheet, self.order, 0, 0),
+            None => self.whole.clone(),
+        }
+    }
+
     /// The cell where a message about a whole row points: the header's first column.
     pub fn row_loc(&self, row: &RawRow) -> Loc {
         cell_loc(&self.whole.sheet, self.order, row.row, self.first_col)
