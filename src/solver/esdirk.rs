@@ -265,7 +265,7 @@ impl Esdirk {
             kept_dt: 0.0,
             resolved: vec![false; n],
             all_resolved: false,
-            inv_mass: problem.dry_mass.iter().map(|m| 1.0 / m).collect(),
+            inv_mass: problem.inverse_dry_mass().to_vec(),
             predictor: predictor_weights(table.c),
             err: vec![0.0; nb],
             settings: NewtonSettings {

@@ -787,7 +787,6 @@ pub fn solve_stage(
             ws.jacobian_valid = true;
             ws.jacobian_evaluations += 1;
         }
-        let mut worst: f64 = 0.0;
         // Zipped slices of one length: no bounds checks in the loop.
         let cells = ws
             .inflow
@@ -799,10 +798,10 @@ pub fn solve_stage(
         for ((((g, rhs), (a_in, a_out)), (f_in, f_out)), ((&m, &xi), &bi)) in cells {
             let inflow = a_in * f_in - a_out * f_out;
             *g = inflow;
-            let r = m * xi - bi - c_dt * inflow;
-            worst = worst.max((r / m).abs());
-            *rhs = -r;
+            *rhs = bi + c_dt * inflow - m * xi;
         }
+        // The largest residual as a change of moisture (a NaN anywhere counts as not finite).
+        let worst = super::sums::max_abs_scaled(&ws.rhs, problem.inverse_dry_mass());
         if !worst.is_finite() {
             if iteration == 0 && !restarted {
                 // The predicted guess left the laws' domain: start from the fallback.
@@ -848,12 +847,11 @@ pub fn solve_stage(
             return Err(NewtonFailure::Breakdown);
         }
         ws.linear_solves += 1;
-        let mut update: f64 = 0.0;
         for ((v, d), r) in x.iter_mut().zip(ws.delta.iter_mut()).zip(&ws.rhs) {
             *d = *r;
             *v += r;
-            update = update.max(r.abs());
         }
+        let update = super::sums::max_abs(&ws.rhs);
         let refresh;
         (converged, refresh) = contraction.judge(
             iteration,

@@ -240,6 +240,8 @@ pub struct Problem {
     pub dry_mass: Vec<f64>,
     /// Their sum (every mean moisture divides by it).
     total_dry_mass: f64,
+    /// Their reciprocals (a cell's water becomes its moisture; no division per cell and use).
+    inverse_dry_mass: Vec<f64>,
     /// Interior faces 1..n-1 (index k-1 for face k).
     pub inner: Vec<InnerFace>,
     /// Face A when exposed.
@@ -452,6 +454,7 @@ impl Problem {
             materials,
             cell_material,
             total_dry_mass: super::sums::sum(&dry_mass),
+            inverse_dry_mass: dry_mass.iter().map(|m| 1.0 / m).collect(),
             dry_mass,
             inner,
             face_a,
@@ -485,6 +488,11 @@ impl Problem {
     /// Total dry mass per unit outer area, kg/m2.
     pub fn total_dry_mass(&self) -> f64 {
         self.total_dry_mass
+    }
+
+    /// 1 / dry mass of each cell.
+    pub fn inverse_dry_mass(&self) -> &[f64] {
+        &self.inverse_dry_mass
     }
 
     /// Dry-mass weighted mean moisture of `x`.

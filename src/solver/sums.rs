@@ -44,6 +44,47 @@ fn sum_of_pairs(a: &[f64], b: &[f64], term: impl Fn(f64, f64) -> f64) -> f64 {
     (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]) + tail
 }
 
+/// Largest `|v[i]| s[i]` over the shorter of the two; NaN when any term is NaN.
+pub fn max_abs_scaled(v: &[f64], s: &[f64]) -> f64 {
+    max_of_pairs(v, s, |x, y| x.abs() * y)
+}
+
+/// Largest `|v[i]|`; NaN when any value is NaN.
+pub fn max_abs(v: &[f64]) -> f64 {
+    max_of_pairs(v, v, |x, _| x.abs())
+}
+
+/// Largest `term(a[i], b[i])` (terms >= 0) with four running maxima; NaN when any term is NaN
+/// (`f64::max` would skip a NaN, and its comparisons would run one after another).
+#[inline]
+fn max_of_pairs(a: &[f64], b: &[f64], term: impl Fn(f64, f64) -> f64) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut lanes = [0.0_f64; 4];
+    let mut nan = false;
+    let mut take = |lane: &mut f64, t: f64| {
+        nan |= t.is_nan();
+        if t > *lane {
+            *lane = t;
+        }
+    };
+    let (ca, cb) = (a.chunks_exact(4), b.chunks_exact(4));
+    let mut tail = 0.0;
+    for (&x, &y) in ca.remainder().iter().zip(cb.remainder()) {
+        take(&mut tail, term(x, y));
+    }
+    for (x, y) in ca.zip(cb) {
+        for ((l, &p), &q) in lanes.iter_mut().zip(x).zip(y) {
+            take(l, term(p, q));
+        }
+    }
+    if nan {
+        f64::NAN
+    } else {
+        lanes.into_iter().fold(tail, f64::max)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -62,6 +103,18 @@ mod tests {
             );
             assert!((dot(&a, &b) - plain_dot).abs() <= 1e-12 * (1.0 + plain_dot.abs()));
             assert!((weighted_squares(&a, &b) - plain_sq).abs() <= 1e-12 * (1.0 + plain_sq));
+            let plain_max = a
+                .iter()
+                .zip(&b)
+                .map(|(x, y)| (x * y).abs())
+                .fold(0.0, f64::max);
+            assert_eq!(max_abs_scaled(&b, &a), plain_max, "n {n}");
+            assert_eq!(max_abs(&b), b.iter().map(|x| x.abs()).fold(0.0, f64::max));
+            if n > 0 {
+                let mut with_nan = b.clone();
+                with_nan[n / 2] = f64::NAN;
+                assert!(max_abs_scaled(&with_nan, &a).is_nan(), "n {n}");
+            }
         }
     }
 }
