@@ -875,10 +875,10 @@ pub fn solve_stage(
 /// A linear stage whose matrix `m - c_dt J` is already factored (an earlier stage of the step, or
 /// an earlier step of the same size), solved directly: the interior faces are homogeneous in the
 /// unknowns, so the stage equation `(m - c_dt J) x = b + c_dt g0` needs only the exposed faces'
-/// constant parts g0, read off their (exact) linearisation at the guess in `x`. This skips the
-/// evaluation of every interior face that a Newton update from the guess would make: the same
-/// result to round-off, one sweep of the cells instead of three. The linearisation is read at
-/// `at` (any finite state: the step's start), so the stage needs no guess.
+/// constant parts g0, read off their (exact) linearisation at `at` (any finite state: the step's
+/// start, so the stage needs no guess). This skips the evaluation of every interior face that a
+/// Newton update would make: the same result to round-off, one sweep of the cells instead of
+/// three.
 #[allow(clippy::too_many_arguments)]
 fn solve_factored_linear_stage(
     problem: &Problem,
@@ -892,7 +892,7 @@ fn solve_factored_linear_stage(
 ) -> Result<(Surfaces, usize), NewtonFailure> {
     let n = x.len();
     let areas = &problem.mesh.areas;
-    let mut constants = [0.0; 2];
+    x.copy_from_slice(b);
     for (side, site, law) in [(0, &problem.face_a, laws.a), (1, &problem.face_b, laws.b)] {
         let Some(site) = site else { continue };
         let (j, [near, far], _) =
@@ -900,13 +900,7 @@ fn solve_factored_linear_stage(
         // The outflow's part that does not depend on the unknowns; it leaves the face's cell.
         let constant = j - near * at[site.cell] - far * at[site.gradient.inner];
         let area = if side == 0 { areas[0] } else { areas[n] };
-        constants[side] = c_dt * area * constant;
-    }
-    x.copy_from_slice(b);
-    for (side, site) in [(0, &problem.face_a), (1, &problem.face_b)] {
-        if let Some(site) = site {
-            x[site.cell] -= constants[side];
-        }
+        x[site.cell] -= c_dt * area * constant;
     }
     if !ws.factors.solve(x) {
         return Err(NewtonFailure::Breakdown);

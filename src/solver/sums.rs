@@ -5,15 +5,7 @@
 
 /// Sum of `a`.
 pub fn sum(a: &[f64]) -> f64 {
-    let mut lanes = [0.0; 4];
-    let chunks = a.chunks_exact(4);
-    let tail: f64 = chunks.remainder().iter().sum();
-    for c in chunks {
-        for (l, v) in lanes.iter_mut().zip(c) {
-            *l += v;
-        }
-    }
-    (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]) + tail
+    sum_of_pairs(a, a, |x, _| x)
 }
 
 /// Sum of `a[i] b[i]` over the shorter of the two.
