@@ -8,6 +8,7 @@
 
 use super::problem::{FaceLaw, FaceSite, InnerFace, MaterialProps, Problem};
 use super::workspace::Workspace;
+use crate::physics::Diffusivity;
 
 /// Maximum Newton iterations per stage solve before the step is rejected.
 pub const MAX_NEWTON: usize = 25;
@@ -46,17 +47,43 @@ impl Surfaces {
     }
 }
 
-/// Flux across a face inside one material, and its derivatives (left, right).
-fn same_material(m: &MaterialProps, distance: f64, xl: f64, xr: f64, t_c: f64) -> [f64; 3] {
-    let xm = 0.5 * (xl + xr);
-    let (d, dd) = m.diffusivity.at_with_slope_x(xm, t_c);
-    let g = m.density / distance;
-    let diff = xl - xr;
-    [
-        g * d * diff,
-        g * (0.5 * dd * diff + d),
-        g * (0.5 * dd * diff - d),
-    ]
+/// Fluxes across a run of faces inside one material, and their derivatives by the left and the
+/// right cell: flux = conductance D(mean X) (X_l - X_r), with D(X) = D(X_ref) e^(b (X - X_ref))
+/// (the temperature part is the run's one factor D(X_ref)). One plain loop over the faces, its
+/// exponential inlined, which the compiler vectorises.
+fn same_material_run(
+    law: &Diffusivity,
+    t_c: f64,
+    conductance: &[f64],
+    (left, right): (&[f64], &[f64]),
+    flux: &mut [f64],
+    d_left: &mut [f64],
+    d_right: &mut [f64],
+) {
+    let at_ref = law.at(law.x_ref, t_c);
+    let faces = flux
+        .iter_mut()
+        .zip(d_left.iter_mut().zip(d_right.iter_mut()))
+        .zip(conductance.iter().zip(left.iter().zip(right)));
+    if law.is_constant() {
+        for ((f, (dl, dr)), (&g, (&xl, &xr))) in faces {
+            let gd = g * at_ref;
+            *f = gd * (xl - xr);
+            *dl = gd;
+            *dr = -gd;
+        }
+    } else {
+        let (b, x_ref) = (law.moisture_coef, law.x_ref);
+        for ((f, (dl, dr)), (&g, (&xl, &xr))) in faces {
+            let gd = g * at_ref * super::exp::exp(b * (0.5 * (xl + xr) - x_ref));
+            let diff = xl - xr;
+            // dD/dX = b D, and each side moves the mean by half its change.
+            let half_slope = 0.5 * b * gd * diff;
+            *f = gd * diff;
+            *dl = half_slope + gd;
+            *dr = half_slope - gd;
+        }
+    }
 }
 
 fn activity(m: &MaterialProps, x: f64, t_c: f64) -> f64 {
@@ -460,34 +487,37 @@ pub fn evaluate_faces_with(
     let n = x.len();
     // The derivatives are about to be rewritten, for whatever laws and temperature these are.
     ws.derivatives_for = None;
-    for (k, face) in problem.inner.iter().enumerate() {
-        let k = k + 1;
+    for run in &problem.runs {
+        let f = run.faces.clone();
+        same_material_run(
+            &problem.materials[run.material].diffusivity,
+            t_c,
+            &run.conductance,
+            (&x[f.start - 1..f.end - 1], &x[f.clone()]),
+            &mut ws.flux[f.clone()],
+            &mut ws.d_left[f.clone()],
+            &mut ws.d_right[f],
+        );
+    }
+    for &k in &problem.interfaces {
+        let InnerFace::Interface {
+            left,
+            right,
+            left_half,
+            right_half,
+        } = problem.inner[k - 1]
+        else {
+            continue;
+        };
         let (xl, xr) = (x[k - 1], x[k]);
-        match *face {
-            InnerFace::Same { material, distance } => {
-                let [f, dl, dr] =
-                    same_material(&problem.materials[material], distance, xl, xr, t_c);
-                ws.flux[k] = f;
-                ws.d_left[k] = dl;
-                ws.d_right[k] = dr;
-            }
-            InnerFace::Interface {
-                left,
-                right,
-                left_half,
-                right_half,
-            } => {
-                let (ml, mr) = (&problem.materials[left], &problem.materials[right]);
-                let flux =
-                    |a: f64, b: f64| interface_flux(ml, mr, left_half, right_half, a, b, t_c);
-                ws.flux[k] = flux(xl, xr);
-                if derivatives {
-                    let el = 1e-7 * (xl.abs() + problem.moisture_scale);
-                    let er = 1e-7 * (xr.abs() + problem.moisture_scale);
-                    ws.d_left[k] = (flux(xl + el, xr) - flux(xl - el, xr)) / (2.0 * el);
-                    ws.d_right[k] = (flux(xl, xr + er) - flux(xl, xr - er)) / (2.0 * er);
-                }
-            }
+        let (ml, mr) = (&problem.materials[left], &problem.materials[right]);
+        let flux = |a: f64, b: f64| interface_flux(ml, mr, left_half, right_half, a, b, t_c);
+        ws.flux[k] = flux(xl, xr);
+        if derivatives {
+            let el = 1e-7 * (xl.abs() + problem.moisture_scale);
+            let er = 1e-7 * (xr.abs() + problem.moisture_scale);
+            ws.d_left[k] = (flux(xl + el, xr) - flux(xl - el, xr)) / (2.0 * el);
+            ws.d_right[k] = (flux(xl, xr + er) - flux(xl, xr - er)) / (2.0 * er);
         }
     }
     let mut s = Surfaces {

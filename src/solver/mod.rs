@@ -11,6 +11,7 @@ pub mod blocktri;
 pub mod coupled;
 mod driver;
 pub mod esdirk;
+mod exp;
 pub mod flux;
 pub mod mesh;
 pub mod method;

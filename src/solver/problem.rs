@@ -210,6 +210,46 @@ pub enum InnerFace {
     },
 }
 
+/// Consecutive interior faces inside one material: faces `faces` (face k lies between cells k-1
+/// and k), with each face's dry density over its centre-to-centre distance, so that the flux
+/// across face k is `conductance[k - faces.start] D(mean X) (X_k-1 - X_k)`.
+#[derive(Debug, Clone)]
+pub struct FaceRun {
+    /// The material on both sides.
+    pub material: usize,
+    /// The faces.
+    pub faces: std::ops::Range<usize>,
+    /// Dry density over centre-to-centre distance, kg/m4, per face of the run.
+    pub conductance: Vec<f64>,
+}
+
+/// The runs of [`FaceRun`] in `inner` (index k-1 for face k), and the faces between materials.
+fn face_runs(inner: &[InnerFace], materials: &[MaterialProps]) -> (Vec<FaceRun>, Vec<usize>) {
+    let mut runs: Vec<FaceRun> = Vec::new();
+    let mut interfaces = Vec::new();
+    for (i, face) in inner.iter().enumerate() {
+        let k = i + 1;
+        match *face {
+            InnerFace::Same { material, distance } => {
+                let conductance = materials[material].density / distance;
+                match runs.last_mut() {
+                    Some(run) if run.material == material && run.faces.end == k => {
+                        run.faces.end = k + 1;
+                        run.conductance.push(conductance);
+                    }
+                    _ => runs.push(FaceRun {
+                        material,
+                        faces: k..k + 1,
+                        conductance: vec![conductance],
+                    }),
+                }
+            }
+            InnerFace::Interface { .. } => interfaces.push(k),
+        }
+    }
+    (runs, interfaces)
+}
+
 /// Thermal data of a coupled (heat and moisture) run.
 #[derive(Debug, Clone)]
 pub struct Thermal {
@@ -244,6 +284,11 @@ pub struct Problem {
     inverse_dry_mass: Vec<f64>,
     /// Interior faces 1..n-1 (index k-1 for face k).
     pub inner: Vec<InnerFace>,
+    /// The interior faces inside one material grouped in runs of consecutive faces of one
+    /// material, which the moisture flux evaluates in one loop each (see [`FaceRun`]).
+    pub runs: Vec<FaceRun>,
+    /// The interior faces between materials (face k, between cells k-1 and k).
+    pub interfaces: Vec<usize>,
     /// Face A when exposed.
     pub face_a: Option<FaceSite>,
     /// Face B when exposed.
@@ -388,7 +433,8 @@ impl Problem {
                     }
                 }
             })
-            .collect();
+            .collect::<Vec<_>>();
+        let (runs, interfaces) = face_runs(&inner, &materials);
         // The second cell in from a face, when it is of the face's material.
         let gradient = |cell: usize, inner: Option<usize>, face: f64| {
             let h1 = (mesh.centres[cell] - face).abs();
@@ -457,6 +503,8 @@ impl Problem {
             inverse_dry_mass: dry_mass.iter().map(|m| 1.0 / m).collect(),
             dry_mass,
             inner,
+            runs,
+            interfaces,
             face_a,
             face_b,
             initial,
