@@ -50,41 +50,42 @@ impl Factors {
         }
         let m = self.middle;
         let (above, below) = (m, n - m - 1);
+        // Every slice cut to n rows, so that the compiler sees each index in range and the loop
+        // runs without bounds checks.
+        let (lower, diag, upper) = (&lower[..n], &diag[..n], &upper[..n]);
+        let inverse = &mut self.inverse[..n];
+        let scaled = &mut self.scaled[..n];
+        let eliminated = &mut self.eliminated[..n];
         // Pivots of the outermost rows, then both chains inwards, side by side. Each chain
         // carries only the last reciprocal pivot, in a register: the product of the two
         // couplings it multiplies is formed off the chain, so a row costs the chain one
         // multiply, one subtract and the division.
-        let mut finite = true;
         let (mut inv_top, mut inv_bottom) = (0.0, 0.0);
         if above > 0 {
             inv_top = 1.0 / diag[0];
-            self.inverse[0] = inv_top;
-            self.scaled[0] = 0.0;
-            self.eliminated[0] = upper[0] * inv_top;
-            finite &= inv_top.is_finite();
+            inverse[0] = inv_top;
+            scaled[0] = 0.0;
+            eliminated[0] = upper[0] * inv_top;
         }
         if below > 0 {
             let b = n - 1;
             inv_bottom = 1.0 / diag[b];
-            self.inverse[b] = inv_bottom;
-            self.scaled[b] = 0.0;
-            self.eliminated[b] = lower[b] * inv_bottom;
-            finite &= inv_bottom.is_finite();
+            inverse[b] = inv_bottom;
+            scaled[b] = 0.0;
+            eliminated[b] = lower[b] * inv_bottom;
         }
         for k in 1..above {
             let i = k;
             inv_top = 1.0 / (diag[i] - (lower[i] * upper[i - 1]) * inv_top);
-            self.inverse[i] = inv_top;
-            self.scaled[i] = lower[i] * inv_top;
-            self.eliminated[i] = upper[i] * inv_top;
-            finite &= inv_top.is_finite();
+            inverse[i] = inv_top;
+            scaled[i] = lower[i] * inv_top;
+            eliminated[i] = upper[i] * inv_top;
             if k < below {
                 let j = n - 1 - k;
                 inv_bottom = 1.0 / (diag[j] - (upper[j] * lower[j + 1]) * inv_bottom);
-                self.inverse[j] = inv_bottom;
-                self.scaled[j] = upper[j] * inv_bottom;
-                self.eliminated[j] = lower[j] * inv_bottom;
-                finite &= inv_bottom.is_finite();
+                inverse[j] = inv_bottom;
+                scaled[j] = upper[j] * inv_bottom;
+                eliminated[j] = lower[j] * inv_bottom;
             }
         }
         // The middle row meets both eliminated neighbours.
@@ -100,7 +101,10 @@ impl Factors {
         self.scaled[m] = if above > 0 { lower[m] * inverse } else { 0.0 };
         self.middle_upper = if below > 0 { upper[m] * inverse } else { 0.0 };
         self.eliminated[m] = 0.0;
-        finite && inverse.is_finite()
+        // A vanished pivot gives an infinite reciprocal, whose successors can come out finite
+        // again (1 / -inf is -0), so every reciprocal is checked: their sum is finite only when
+        // each of them is (one pass after the chains instead of a test in them).
+        super::sums::sum(&self.inverse).is_finite()
     }
 
     /// Solves in place with the factored matrix. Returns `false` when the result is not finite.
