@@ -54,7 +54,9 @@ impl<'p> CurveRecorder<'p> {
                 .map(|r| super::sums::sum(&p.dry_mass[r.clone()]))
                 .collect(),
             next: 1,
-            rows: Vec::new(),
+            // Room for the rows a run to its end time writes (up to a bound): no regrowth and
+            // copying of the rows as they come.
+            rows: Vec::with_capacity((p.end_time / p.output_every).clamp(0.0, 4096.0) as usize + 2),
         }
     }
 
@@ -80,9 +82,13 @@ impl Observer for CurveRecorder<'_> {
             let span = self.initial_mean - eq;
             (span.abs() > 1e-12 * self.initial_mean.abs().max(1e-12)).then(|| (mean - eq) / span)
         });
-        let layer_means = (p.mesh.layer_cells.iter().zip(&self.layer_mass))
-            .map(|(r, m)| super::sums::dot(&p.dry_mass[r.clone()], &x[r.clone()]) / m)
-            .collect();
+        let layer_means = if let [_] = p.mesh.layer_cells[..] {
+            vec![mean]
+        } else {
+            (p.mesh.layer_cells.iter().zip(&self.layer_mass))
+                .map(|(r, m)| super::sums::dot(&p.dry_mass[r.clone()], &x[r.clone()]) / m)
+                .collect()
+        };
         let temps = &s.state.temperature;
         let (mean_temp_c, surface_temp_c, centre_temp_c) = if temps.is_empty() {
             (air.dry_bulb_c, air.dry_bulb_c, air.dry_bulb_c)

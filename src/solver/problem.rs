@@ -644,7 +644,8 @@ impl Problem {
     /// surface's water activity), where it can be known.
     pub fn equilibrium_mean(&self, step: &StepPlan, air: Air) -> Option<f64> {
         let surface_material = self.face_a.or(self.face_b)?.material;
-        let single = self.cell_material.iter().all(|&m| m == surface_material);
+        // No boundary between materials: every cell is of the surface's material.
+        let single = self.interfaces.is_empty();
         let given = match step.exchange {
             Exchange::FixedSurface(x) => Some(x),
             _ => step.equilibrium_moisture,
