@@ -993,11 +993,26 @@ fn assemble_and_factor(
     ws: &mut Workspace,
 ) -> Result<(), NewtonFailure> {
     let areas = &problem.mesh.areas;
-    let mass = &problem.dry_mass;
-    for i in 0..mass.len() {
-        ws.lower[i] = -c_dt * areas[i] * ws.d_left[i];
-        ws.diag[i] = mass[i] - c_dt * (areas[i] * ws.d_right[i] - areas[i + 1] * ws.d_left[i + 1]);
-        ws.upper[i] = c_dt * areas[i + 1] * ws.d_right[i + 1];
+    let n = problem.dry_mass.len();
+    // Zipped slices of one length (no bounds checks): each cell with its two faces.
+    let rows = (ws.lower.iter_mut())
+        .zip(ws.diag.iter_mut().zip(ws.upper.iter_mut()))
+        .zip(
+            problem
+                .dry_mass
+                .iter()
+                .zip(areas[..n].iter().zip(&areas[1..=n])),
+        )
+        .zip(
+            (ws.d_left[..n].iter().zip(&ws.d_left[1..=n]))
+                .zip(ws.d_right[..n].iter().zip(&ws.d_right[1..=n])),
+        );
+    for (((lower, (diag, upper)), (&m, (&a_in, &a_out))), ((&dl_in, &dl_out), (&dr_in, &dr_out))) in
+        rows
+    {
+        *lower = -c_dt * a_in * dl_in;
+        *diag = m - c_dt * (a_in * dr_in - a_out * dl_out);
+        *upper = c_dt * a_out * dr_out;
     }
     add_far_face_terms(ws, areas, c_dt);
     if !ws.factors.factor(&ws.lower, &ws.diag, &ws.upper) {
