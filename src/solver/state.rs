@@ -2,12 +2,29 @@
 
 /// Moisture (dry fraction) and temperature (degrees C) of every cell. `temperature` is empty in
 /// isothermal runs, where the product is at the air temperature.
-#[derive(Debug, Clone, PartialEq, Default)]
+#[derive(Debug, PartialEq, Default)]
 pub struct State {
     /// Moisture of each cell, dry fraction.
     pub moisture: Vec<f64>,
     /// Temperature of each cell, degrees C; empty when isothermal.
     pub temperature: Vec<f64>,
+}
+
+// By hand, for `clone_from`: the derived one clones into new vectors and drops the old ones,
+// and the stepper copies states into kept buffers at every stage and row (an allocation and a
+// free each); this one copies into the buffers already there.
+impl Clone for State {
+    fn clone(&self) -> State {
+        State {
+            moisture: self.moisture.clone(),
+            temperature: self.temperature.clone(),
+        }
+    }
+
+    fn clone_from(&mut self, source: &State) {
+        self.moisture.clone_from(&source.moisture);
+        self.temperature.clone_from(&source.temperature);
+    }
 }
 
 impl State {
