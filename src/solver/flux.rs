@@ -74,13 +74,10 @@ fn same_material_run(
         }
     } else {
         let (b, x_ref) = (law.moisture_coef, law.x_ref);
-        #[cfg(target_arch = "x86_64")]
-        if std::arch::is_x86_feature_detected!("avx2") {
-            // SAFETY: the processor has just been seen to support AVX2.
-            unsafe { exponential_faces_avx2(faces, at_ref, b, x_ref) };
-            return;
-        }
-        exponential_faces(faces, at_ref, b, x_ref);
+        super::wide::wide(
+            #[inline(always)]
+            || exponential_faces(faces, at_ref, b, x_ref),
+        );
     }
 }
 
@@ -107,25 +104,6 @@ fn exponential_faces<'a>(
         *dl = half_slope + gd;
         *dr = half_slope - gd;
     }
-}
-
-/// [`exponential_faces`] compiled for AVX2, four faces at a time where the baseline's vectors
-/// hold two. No FMA: every operation rounds as in the baseline build, so the results are the
-/// same bit for bit on any processor.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-fn exponential_faces_avx2<'a>(
-    faces: impl Iterator<
-        Item = (
-            (&'a mut f64, (&'a mut f64, &'a mut f64)),
-            (&'a f64, (&'a f64, &'a f64)),
-        ),
-    >,
-    at_ref: f64,
-    b: f64,
-    x_ref: f64,
-) {
-    exponential_faces(faces, at_ref, b, x_ref);
 }
 
 fn activity(m: &MaterialProps, x: f64, t_c: f64) -> f64 {
@@ -1100,20 +1078,18 @@ mod tests {
             .map(|i| 500.0 / (1e-4 * (1.0 + 0.01 * i as f64)))
             .collect();
         let (at_ref, b, x_ref) = (2e-10, 2.0, 0.1);
-        let run = |avx2: bool| {
+        let run = |wide: bool| {
             let (mut f, mut dl, mut dr) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
             let faces = f
                 .iter_mut()
                 .zip(dl.iter_mut().zip(dr.iter_mut()))
                 .zip(g.iter().zip(x[..n].iter().zip(&x[1..])));
-            #[cfg(target_arch = "x86_64")]
-            if avx2 {
-                // SAFETY: only called where the processor has AVX2 (checked below).
-                unsafe { exponential_faces_avx2(faces, at_ref, b, x_ref) };
-                return (f, dl, dr);
+            let body = || exponential_faces(faces, at_ref, b, x_ref);
+            if wide {
+                crate::solver::wide::wide(body);
+            } else {
+                crate::solver::wide::narrow(body);
             }
-            let _ = avx2;
-            exponential_faces(faces, at_ref, b, x_ref);
             (f, dl, dr)
         };
         let base = run(false);
@@ -1123,8 +1099,7 @@ mod tests {
             let expected = g[k] * d * (xl - xr);
             assert!((base.0[k] - expected).abs() <= 1e-14 * expected.abs().max(1e-300));
         }
-        #[cfg(target_arch = "x86_64")]
-        if std::arch::is_x86_feature_detected!("avx2") {
+        if crate::solver::wide::is_wide() {
             let wide = run(true);
             let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
             assert_eq!(bits(&base.0), bits(&wide.0));

@@ -23,6 +23,7 @@ pub mod state;
 mod stepper;
 mod sums;
 pub mod tridiag;
+mod wide;
 mod workspace;
 
 pub use driver::{CurveRow, Profile, RunControl, RunResult, RunStatus, run};
