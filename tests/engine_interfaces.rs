@@ -80,7 +80,7 @@ fn layer_mean_at(r: &RunResult, layer: usize, hours: f64) -> f64 {
                 .total_cmp(&(b.time - hours * 3600.0).abs())
         })
         .expect("rows");
-    row.layer_means[layer]
+    row.layer_means()[layer]
 }
 
 #[test]
@@ -164,8 +164,8 @@ fn sealed_pair(
     let water = |m: &Material, mm: f64, x: f64| m.dry_density * mm * x;
     let before = water(&case.materials[0], a.1, a.2) + water(&case.materials[1], b.1, b.2);
     let last = r.last().expect("rows");
-    let after = water(&case.materials[0], a.1, last.layer_means[0])
-        + water(&case.materials[1], b.1, last.layer_means[1]);
+    let after = water(&case.materials[0], a.1, last.layer_means()[0])
+        + water(&case.materials[1], b.1, last.layer_means()[1]);
     assert!(
         (after - before).abs() <= 1e-10 * before,
         "{before} -> {after}"
@@ -180,7 +180,7 @@ fn free_water_beside_wood_below_saturation_settles_quickly() {
     let wood = material("wood", 500.0, 2e-10, 2.0, Isotherm::Wood);
     let r = sealed_pair((gab, 5.0, 0.60), (wood, 10.0, 0.25), t, 2000.0);
     let last = r.last().expect("rows");
-    let (x1, x2) = (last.layer_means[0], last.layer_means[1]);
+    let (x1, x2) = (last.layer_means()[0], last.layer_means()[1]);
     let aw1 = FREE_WATER_GAB.water_activity(x1, t).expect("aw");
     let aw2 = Isotherm::Wood.water_activity(x2, t).expect("aw");
     // Both sides end at one water activity (or, both holding free water, one saturation).
@@ -201,7 +201,7 @@ fn two_wood_species_with_free_water_share_their_degree_of_saturation() {
     let pine = material("light", 420.0, 4e-10, 3.0, Isotherm::Wood);
     let r = sealed_pair((oak, 10.0, 0.80), (pine, 10.0, 0.28), t, 3000.0);
     let last = r.last().expect("rows");
-    let (x1, x2) = (last.layer_means[0], last.layer_means[1]);
+    let (x1, x2) = (last.layer_means()[0], last.layer_means()[1]);
     // Same isotherm on both sides: one potential means one moisture content.
     assert!((x1 - x2).abs() < 2e-3, "{x1} vs {x2}");
 }

@@ -79,7 +79,7 @@ fn two_sealed_layers_end_at_one_water_activity_with_two_moisture_contents() {
     case.title = "two sealed layers".into();
     let r = run(&case);
     let last = r.last().expect("rows");
-    let (x1, x2) = (last.layer_means[0], last.layer_means[1]);
+    let (x1, x2) = (last.layer_means()[0], last.layer_means()[1]);
     let aw1 = gab.water_activity(x1, 30.0).expect("gab aw");
     let aw2 = oswin.water_activity(x2, 30.0).expect("oswin aw");
     assert!((aw1 - aw2).abs() < 1e-4, "aw {aw1} vs {aw2}");

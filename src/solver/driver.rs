@@ -39,14 +39,27 @@ pub struct CurveRow {
     pub air_rh: Option<f64>,
     /// Schedule step index in force.
     pub step: usize,
-    /// Mean moisture of each layer.
-    pub layer_means: Vec<f64>,
+    /// Mean moisture of each layer of a body of several layers; empty for one layer, whose
+    /// mean is `mean` (no allocation per row in the common case). Read it with
+    /// [`CurveRow::layer_means`].
+    pub(crate) several_layer_means: Vec<f64>,
     /// The exposed surface's equilibrium moisture with the air in force, where known.
     pub equilibrium: Option<f64>,
     /// Water activity at the surface (from its material's isotherm), where known.
     pub surface_water_activity: Option<f64>,
     /// Water activity at the centre, where known.
     pub centre_water_activity: Option<f64>,
+}
+
+impl CurveRow {
+    /// Mean moisture of each layer.
+    pub fn layer_means(&self) -> &[f64] {
+        if self.several_layer_means.is_empty() {
+            std::slice::from_ref(&self.mean)
+        } else {
+            &self.several_layer_means
+        }
+    }
 }
 
 /// A whole moisture profile at one time.

@@ -82,8 +82,8 @@ impl Observer for CurveRecorder<'_> {
             let span = self.initial_mean - eq;
             (span.abs() > 1e-12 * self.initial_mean.abs().max(1e-12)).then(|| (mean - eq) / span)
         });
-        let layer_means = if let [_] = p.mesh.layer_cells[..] {
-            vec![mean]
+        let several_layer_means = if let [_] = p.mesh.layer_cells[..] {
+            Vec::new()
         } else {
             (p.mesh.layer_cells.iter().zip(&self.layer_mass))
                 .map(|(r, m)| super::sums::dot(&p.dry_mass[r.clone()], &x[r.clone()]) / m)
@@ -129,7 +129,7 @@ impl Observer for CurveRecorder<'_> {
             air_temp_c: air.dry_bulb_c,
             air_rh: air.rh,
             step: s.step,
-            layer_means,
+            several_layer_means,
             equilibrium,
             surface_water_activity: activity(surface_material, surface, surface_temp_c),
             centre_water_activity: activity(centre_material, centre, centre_temp_c),

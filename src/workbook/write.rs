@@ -607,7 +607,7 @@ impl<'a> CurveCells<'a> {
             Some(row.air_temp_c),
             row.air_rh.map(|rh| 100.0 * rh),
         ]);
-        v.extend(row.layer_means.iter().map(|&x| Some(pct(case, x))));
+        v.extend(row.layer_means().iter().map(|&x| Some(pct(case, x))));
         v.extend([
             row.equilibrium.map(|x| pct(case, x)),
             row.surface_water_activity,
