@@ -174,6 +174,9 @@ struct Scheduled<'p> {
     problem: &'p Problem,
     step_index: usize,
     step_start: f64,
+    /// The conditions of a step whose air does not change (no ramp), worked out once when the
+    /// step comes into force: every stage and output row asks for them.
+    steady: Option<Conditions>,
 }
 
 impl Scheduled<'_> {
@@ -225,16 +228,28 @@ impl Scheduled<'_> {
             b: face(laws.b),
         }
     }
-}
 
-impl ConditionsAt for Scheduled<'_> {
-    fn at(&self, t: f64) -> Conditions {
+    /// The conditions at `t`, worked out.
+    fn worked_out(&self, t: f64) -> Conditions {
         let (laws, t_air) = self.laws_at(t);
         Conditions {
             laws,
             t_air,
             heat: self.heat_faces(&laws, t),
         }
+    }
+
+    /// The conditions of the step in force when its air does not change with time.
+    fn steady_conditions(&self) -> Option<Conditions> {
+        let step = self.problem.steps.get(self.step_index);
+        let changes = step.is_some_and(|s| s.ramp && s.duration.is_some_and(|d| d > 0.0));
+        (!changes).then(|| self.worked_out(self.step_start))
+    }
+}
+
+impl ConditionsAt for Scheduled<'_> {
+    fn at(&self, t: f64) -> Conditions {
+        self.steady.unwrap_or_else(|| self.worked_out(t))
     }
 }
 
@@ -248,6 +263,8 @@ pub struct Stepper<'p> {
     triggers: [Option<f64>; 2],
     step_index: usize,
     step_start: f64,
+    /// The step's conditions when its air does not change (see [`Scheduled`]).
+    steady: Option<Conditions>,
     model: Box<dyn Model + 'p>,
     method: Box<dyn Method>,
     controller: Controller,
@@ -278,6 +295,7 @@ impl<'p> Stepper<'p> {
             triggers: [None, None],
             step_index: 0,
             step_start: 0.0,
+            steady: None,
             model: model::for_problem(problem),
             method: Box::new(Esdirk::new(
                 &ESDIRK43,
@@ -292,6 +310,7 @@ impl<'p> Stepper<'p> {
             newton_cap: f64::INFINITY,
         };
         s.controller.exponent = 1.0 / f64::from(s.method.error_order() + 1);
+        s.steady = s.scheduled().steady_conditions();
         s.restart_step_size();
         s
     }
@@ -340,6 +359,8 @@ impl<'p> Stepper<'p> {
     pub fn set_schedule_step(&mut self, index: usize, start: f64) {
         self.step_index = index.min(self.problem.steps.len().saturating_sub(1));
         self.step_start = start;
+        self.steady = None;
+        self.steady = self.scheduled().steady_conditions();
         self.method.restart();
         self.model.invalidate_jacobian();
         self.restart_step_size();
@@ -365,6 +386,7 @@ impl<'p> Stepper<'p> {
             problem: self.problem,
             step_index: self.step_index,
             step_start: self.step_start,
+            steady: self.steady,
         }
     }
 
