@@ -212,6 +212,8 @@ pub struct Esdirk {
     /// The net inflows of the last accepted step's stages and its length, for the quartic.
     kept_g: Vec<Vec<f64>>,
     kept_dt: f64,
+    /// The length of the last attempt (its stages' inflows are in `g`).
+    attempt_dt: f64,
     /// Per cell, whether the last accepted step resolves its change (see `accept`), and whether
     /// every cell's does.
     resolved: Vec<bool>,
@@ -263,6 +265,7 @@ impl Esdirk {
             kept_cubic: false,
             kept_g: vec![vec![0.0; nb]; s],
             kept_dt: 0.0,
+            attempt_dt: 0.0,
             resolved: vec![false; n],
             all_resolved: false,
             inv_mass: problem.inverse_dry_mass().to_vec(),
@@ -487,6 +490,7 @@ impl Method for Esdirk {
         let tab = self.table;
         let s = tab.stages;
         self.settings.linear = model.is_linear();
+        self.attempt_dt = dt;
         if !self.g0_valid || self.g0_time != t {
             self.rates[0] = model.inflow(&conditions.at(t), y, &mut self.g[0]);
             self.g0_valid = true;
@@ -562,8 +566,22 @@ impl Method for Esdirk {
         &self.stage[self.table.stages - 1]
     }
 
-    fn candidate_slope(&self) -> &State {
-        &self.end_slope
+    fn candidate_gain(&self) -> [f64; 4] {
+        // The dense output's weights (`Tableau::dense`) applied to each stage's total water
+        // inflow: every model holds water as dry mass times moisture, so the water gained is
+        // the mean's change times the dry mass.
+        let mut w = [0.0; 4];
+        for (row, g) in self.table.dense.iter().zip(&self.g) {
+            let inflow = if self.block == 1 {
+                super::sums::sum(g)
+            } else {
+                g.iter().step_by(self.block).sum()
+            };
+            for (w, d) in w.iter_mut().zip(row) {
+                *w += self.attempt_dt * d * inflow;
+            }
+        }
+        w
     }
 
     fn accept(&mut self, state: &mut State, t_end: f64, dt: f64) {

@@ -573,29 +573,47 @@ impl<'p> Stepper<'p> {
         }
     }
 
-    /// Where the mean moisture of the method's interpolant over the candidate step (of length
+    /// Where the mean moisture of the method's dense output over the candidate step (of length
     /// `dt`, from mean `before`) crosses `level`, as a step length; `None` without a crossing.
+    /// The dense output is as accurate as the steps, so the first trial step lands within
+    /// about the tolerance of the level and the second within round-off (a quadratic through
+    /// the ends and the end slope took three trials).
     fn interpolated_crossing(&self, before: f64, level: f64, dt: f64) -> Option<f64> {
-        let end = self.problem.mean(&self.method.candidate().moisture);
-        let slope = dt * self.problem.mean(&self.method.candidate_slope().moisture);
-        // p(s) = before + (2 D - S) s + (S - D) s^2 with D = end - before, S = dt mean'(end).
-        let delta = end - before;
-        let (a, b, c) = (slope - delta, 2.0 * delta - slope, before - level);
-        let in_step = |s: f64| (s > 0.0 && s < 1.0).then_some(s);
-        let s = if a.abs() <= 1e-12 * b.abs() {
-            in_step(-c / b)
-        } else {
-            let disc = b * b - 4.0 * a * c;
-            if disc < 0.0 {
-                return None;
+        let w = self.method.candidate_gain();
+        let per_mass = 1.0 / self.problem.total_dry_mass();
+        let f =
+            |s: f64| before - level + per_mass * s * (w[0] + s * (w[1] + s * (w[2] + s * w[3])));
+        let df = |s: f64| per_mass * (w[0] + s * (2.0 * w[1] + s * (3.0 * w[2] + s * 4.0 * w[3])));
+        let (mut lo, mut hi) = (0.0, 1.0);
+        let (f_lo, f_hi) = (f(lo), f(hi));
+        if !(f_lo.signum() != f_hi.signum() && f_lo.is_finite() && f_hi.is_finite()) {
+            return None;
+        }
+        // Newton's method kept inside the bracket (bisection where it would leave it).
+        let mut s = f_lo / (f_lo - f_hi);
+        for _ in 0..50 {
+            let v = f(s);
+            if v == 0.0 {
+                break;
             }
-            // The two roots without cancellation; the first inside the step.
-            let q = -0.5 * (b + b.signum() * disc.sqrt());
-            let (r1, r2) = (q / a, c / q);
-            let (r1, r2) = if r1 <= r2 { (r1, r2) } else { (r2, r1) };
-            in_step(r1).or_else(|| in_step(r2))
-        };
-        s.map(|s| s * dt)
+            if v.signum() == f_lo.signum() {
+                lo = s;
+            } else {
+                hi = s;
+            }
+            let next = s - v / df(s);
+            let next = if next > lo && next < hi {
+                next
+            } else {
+                0.5 * (lo + hi)
+            };
+            if (next - s).abs() <= 1e-15 {
+                s = next;
+                break;
+            }
+            s = next;
+        }
+        (s > 0.0 && s < 1.0).then_some(s * dt)
     }
 
     /// Shortens the step until the mean moisture lands on `level` (Illinois secant on dt).
