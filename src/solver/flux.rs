@@ -830,6 +830,7 @@ pub fn solve_stage(
     let mut restarted = false;
     let mut converged = false;
     let mut contraction = Contraction::new();
+    let mut keep_elimination = false;
     for iteration in 0..=MAX_NEWTON {
         let fresh = !ws.jacobian_valid;
         let surfaces = evaluate_faces_with(problem, laws, t_c, x, ws, fresh);
@@ -885,14 +886,21 @@ pub fn solve_stage(
             }
             backtracks += 1;
             ws.jacobian_valid = false;
+            keep_elimination = false;
             continue;
         }
         previous = worst;
         backtracks = 0;
-        // A linear stage gets here only when its elimination cannot be reused (see the top).
-        assemble_and_factor(problem, c_dt, ws)?;
-        ws.factored_for = settings.linear.then_some((c_dt, t_c, *laws));
-        ws.derivatives_for = settings.linear.then_some((t_c, *laws));
+        // After an update that contracted well the elimination of the iterate before is kept
+        // (simplified Newton): the derivatives moved by about the update, so the next update
+        // is as good as a fresh one to well below the tolerance, without the assembly and
+        // elimination. A linear stage gets here only when its elimination cannot be reused
+        // (see the top).
+        if !keep_elimination {
+            assemble_and_factor(problem, c_dt, ws)?;
+            ws.factored_for = settings.linear.then_some((c_dt, t_c, *laws));
+            ws.derivatives_for = settings.linear.then_some((t_c, *laws));
+        }
         if !ws.factors.solve(&mut ws.rhs) {
             return Err(NewtonFailure::Breakdown);
         }
@@ -914,6 +922,7 @@ pub fn solve_stage(
             let surfaces = finish_stage(problem, laws, t_c, c_dt, b, x, ws);
             return Ok((surfaces, iteration + 1));
         }
+        keep_elimination = !refresh;
         if refresh {
             ws.jacobian_valid = false;
         }
