@@ -806,7 +806,7 @@ pub fn solve_stage(
     fallback: &[f64],
     ws: &mut Workspace,
     settings: &NewtonSettings,
-) -> Result<(Surfaces, usize), NewtonFailure> {
+) -> Result<(f64, usize), NewtonFailure> {
     if settings.linear {
         // A linear problem's matrix stays the same while c dt, the temperature and the face
         // laws do (every stage of a step shares c dt, and the controller keeps the step size
@@ -828,12 +828,11 @@ pub fn solve_stage(
     let mut previous = f64::INFINITY;
     let mut backtracks = 0;
     let mut restarted = false;
-    let mut converged = false;
     let mut contraction = Contraction::new();
     let mut keep_elimination = false;
     for iteration in 0..=MAX_NEWTON {
         let fresh = !ws.jacobian_valid;
-        let surfaces = evaluate_faces_with(problem, laws, t_c, x, ws, fresh);
+        evaluate_faces_with(problem, laws, t_c, x, ws, fresh);
         if fresh {
             ws.jacobian_valid = true;
             ws.jacobian_evaluations += 1;
@@ -866,13 +865,9 @@ pub fn solve_stage(
                     *v -= *d;
                 }
                 backtracks += 1;
-                converged = false;
                 continue;
             }
             return Err(NewtonFailure::Breakdown);
-        }
-        if converged {
-            return Ok((surfaces, iteration));
         }
         if iteration == MAX_NEWTON {
             break;
@@ -910,8 +905,7 @@ pub fn solve_stage(
             *v += r;
         }
         let update = super::sums::max_abs(&ws.rhs);
-        let refresh;
-        (converged, refresh) = contraction.judge(
+        let (converged, refresh) = contraction.judge(
             iteration,
             update / tol,
             &mut ws.memory,
@@ -919,8 +913,7 @@ pub fn solve_stage(
             true,
         );
         if converged {
-            let surfaces = finish_stage(problem, laws, t_c, c_dt, b, x, ws);
-            return Ok((surfaces, iteration + 1));
+            return Ok((finish_stage(problem, c_dt, b, x, ws), iteration + 1));
         }
         keep_elimination = !refresh;
         if refresh {
@@ -948,7 +941,7 @@ fn solve_factored_linear_stage(
     at: &[f64],
     x: &mut [f64],
     ws: &mut Workspace,
-) -> Result<(Surfaces, usize), NewtonFailure> {
+) -> Result<(f64, usize), NewtonFailure> {
     let n = x.len();
     let areas = &problem.mesh.areas;
     x.copy_from_slice(b);
@@ -965,54 +958,27 @@ fn solve_factored_linear_stage(
         return Err(NewtonFailure::Breakdown);
     }
     ws.linear_solves += 1;
-    Ok((finish_stage(problem, laws, t_c, c_dt, b, x, ws), 1))
+    Ok((finish_stage(problem, c_dt, b, x, ws), 1))
 }
 
 /// The end of a stage solve at its accepted iterate `x`: the inflow from the stage equation,
 /// G = (m x - b) / c_dt, rather than from the faces again (exact for a linear stage's one
 /// update, within the Newton tolerance otherwise, and it enters every later use multiplied by a
-/// time step), and the exposed faces evaluated at `x` for their rates. Those rates are then
-/// matched to the water the stage equation says left (-sum G: the interior fluxes cancel in the
-/// sum), so the water balance closes to round-off whatever the Newton iteration left over; the
-/// difference, a few hundredths of the tolerance at most, goes to the faces in proportion to
-/// their flows.
-fn finish_stage(
-    problem: &Problem,
-    laws: &FaceLaws,
-    t_c: f64,
-    c_dt: f64,
-    b: &[f64],
-    x: &[f64],
-    ws: &mut Workspace,
-) -> Surfaces {
+/// time step). Returns the water leaving through the exposed faces, -sum G (the interior fluxes
+/// cancel in the sum; kg/s per unit outer area), so the water balance closes to round-off
+/// whatever the Newton iteration left over. The faces themselves are not solved again: only
+/// their total enters the balance.
+fn finish_stage(problem: &Problem, c_dt: f64, b: &[f64], x: &[f64], ws: &mut Workspace) -> f64 {
     let mass = &problem.dry_mass;
     let per_time = 1.0 / c_dt;
     for ((g, (&m, &v)), &bi) in ws.inflow.iter_mut().zip(mass.iter().zip(x)).zip(b) {
         *g = (m * v - bi) * per_time;
     }
-    let total = super::sums::sum(&ws.inflow);
-    let mut s = exposed_surfaces(problem, laws, t_c, x, ws);
-    let (flow_a, flow_b) = (
-        problem.face_a.map_or(0.0, |f| f.area * s.out_a),
-        problem.face_b.map_or(0.0, |f| f.area * s.out_b),
-    );
-    let missing = -total - (flow_a + flow_b);
-    let share_a = match (problem.face_a, problem.face_b) {
-        (Some(_), None) => 1.0,
-        (None, Some(_)) => 0.0,
-        (Some(_), Some(_)) if flow_a.abs() + flow_b.abs() > 0.0 => {
-            flow_a.abs() / (flow_a.abs() + flow_b.abs())
-        }
-        (Some(_), Some(_)) => 0.5,
-        (None, None) => return s,
-    };
-    if let Some(f) = problem.face_a.filter(|f| f.area > 0.0) {
-        s.out_a += share_a * missing / f.area;
+    if problem.face_a.is_none() && problem.face_b.is_none() {
+        // Sealed all round: nothing leaves (the sum would be round-off).
+        return 0.0;
     }
-    if let Some(f) = problem.face_b.filter(|f| f.area > 0.0) {
-        s.out_b += (1.0 - share_a) * missing / f.area;
-    }
-    s
+    -super::sums::sum(&ws.inflow)
 }
 
 /// Builds the stage matrix `m - c_dt J` from the face derivatives in the workspace and factors it.

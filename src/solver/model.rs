@@ -166,7 +166,7 @@ impl Model for Moisture<'_> {
         settings: &NewtonSettings,
     ) -> Result<(Rates, usize), NewtonFailure> {
         let p = self.problem;
-        let (s, iterations) = flux::solve_stage(
+        let (water_out, iterations) = flux::solve_stage(
             p,
             &c.laws,
             c.t_air,
@@ -177,7 +177,11 @@ impl Model for Moisture<'_> {
             &mut self.ws,
             settings,
         )?;
-        Ok((rates_of(p, &s), iterations))
+        let rates = Rates {
+            water: water_out,
+            ..Rates::default()
+        };
+        Ok((rates, iterations))
     }
 
     fn last_inflow(&self) -> &[f64] {
