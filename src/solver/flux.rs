@@ -792,9 +792,10 @@ impl Default for NewtonMemory {
 /// not. The iteration stops when the estimated error of the iterate, `rate / (1 - rate)` times
 /// the last update, is below `settings.tol` (before a rate is measured, Newton's quadratic
 /// contraction with the last solve's constant gives it; linear stages stop after one update);
-/// `finish_stage` then takes the inflow from the stage equation and matches the faces' rates to
-/// it, so `ws.inflow` and the returned surfaces belong to the state returned and the water
-/// balance closes to round-off.
+/// `finish_stage` then takes the inflow from the stage equation, so `ws.inflow` belongs to the
+/// state returned, and returns the water that left, -sum G, so the water balance closes to
+/// round-off. While the iteration contracts well the next update reuses the elimination of the
+/// one before (simplified Newton).
 #[allow(clippy::too_many_arguments)]
 pub fn solve_stage(
     problem: &Problem,
