@@ -678,6 +678,85 @@ impl Method for Esdirk {
 mod tests {
     use super::*;
 
+    /// The water gain the stepper locates a trigger with (`candidate_gain`) is the dense
+    /// output's: at the attempt's end it is the water the step added (the methods are stiffly
+    /// accurate), and in between it moves monotonically from 0 there on a drying slab.
+    #[test]
+    fn the_candidate_gain_ends_at_the_water_the_step_added() {
+        use crate::case::{Case, Exchange, Exposed, Geometry, Humidity, Material, Step};
+        use crate::solver::flux::FaceLaws;
+        use crate::solver::model::{self, Conditions};
+        use crate::solver::problem::{Air, FaceLaw};
+
+        let mut material = Material::constant("p", 500.0, 2e-10);
+        material.diffusivity.moisture_coef = 2.0;
+        let mut step = Step::constant(
+            40.0,
+            Humidity::Unspecified,
+            Exchange::SurfaceCoefficient(1e-7),
+        );
+        step.equilibrium_moisture = Some(0.05);
+        let case = Case::single_layer(
+            Geometry::Slab,
+            Exposed::A,
+            material,
+            0.01,
+            0.8,
+            vec![step],
+            3.6e5,
+        );
+        let problem = Problem::new(&case.validated().expect("a valid case"));
+        let air = Air {
+            dry_bulb_c: 40.0,
+            rh: None,
+        };
+        let law = problem.face_law(&problem.steps[0], air, 0);
+        assert!(matches!(law, FaceLaw::Linear { .. }));
+        let heat = crate::solver::coupled::HeatFace {
+            law,
+            h: 0.0,
+            t_air: 40.0,
+        };
+        struct Fixed(Conditions);
+        impl ConditionsAt for Fixed {
+            fn at(&self, _t: f64) -> Conditions {
+                self.0
+            }
+        }
+        let conditions = Fixed(Conditions {
+            laws: FaceLaws {
+                a: law,
+                b: FaceLaw::Sealed,
+            },
+            t_air: 40.0,
+            heat: crate::solver::coupled::HeatFaces { a: heat, b: heat },
+        });
+        let mut model = model::for_problem(&problem);
+        let mut method = Esdirk::new(&ESDIRK43, &problem, 1);
+        let y = State {
+            moisture: problem.initial.clone(),
+            temperature: Vec::new(),
+        };
+        method
+            .attempt(model.as_mut(), &conditions, 0.0, 1800.0, &y)
+            .expect("the stage solves converge");
+        let w = method.candidate_gain();
+        let gain = |s: f64| s * (w[0] + s * (w[1] + s * (w[2] + s * w[3])));
+        let added = problem.water(&method.candidate().moisture) - problem.water(&y.moisture);
+        assert!(added < 0.0, "the slab dries");
+        assert!(
+            (gain(1.0) - added).abs() <= 1e-12 * added.abs(),
+            "{} {added}",
+            gain(1.0)
+        );
+        let mut last = 0.0;
+        for k in 1..=20 {
+            let g = gain(f64::from(k) / 20.0);
+            assert!(g < last, "step {k}: {g} after {last}");
+            last = g;
+        }
+    }
+
     /// `combine` against the plain sum of its terms, on the baseline path and, where the
     /// processor has AVX2, the wide one, which must give the same bits.
     #[test]
