@@ -30,6 +30,8 @@ mod special;
 
 pub use one_term::{conduction_centre_ratio, one_term_coefficient};
 pub use profile::slab_profile;
+/// Brent's bracketed root finder, also used by the solver to place a trigger inside a step.
+pub(crate) use roots::brent;
 pub use roots::{bessel_j0_zero, bessel_j1_zero, eigenvalues, weight};
 pub use series::Series;
 pub use special::{erfcx, ierfc, uptake_f, uptake_g};

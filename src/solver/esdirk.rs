@@ -212,8 +212,6 @@ pub struct Esdirk {
     /// The net inflows of the last accepted step's stages and its length, for the quartic.
     kept_g: Vec<Vec<f64>>,
     kept_dt: f64,
-    /// The length of the last attempt (its stages' inflows are in `g`).
-    attempt_dt: f64,
     /// Per cell, whether the last accepted step resolves its change (see `accept`), and whether
     /// every cell's does.
     resolved: Vec<bool>,
@@ -265,7 +263,6 @@ impl Esdirk {
             kept_cubic: false,
             kept_g: vec![vec![0.0; nb]; s],
             kept_dt: 0.0,
-            attempt_dt: 0.0,
             resolved: vec![false; n],
             all_resolved: false,
             inv_mass: problem.inverse_dry_mass().to_vec(),
@@ -490,7 +487,6 @@ impl Method for Esdirk {
         let tab = self.table;
         let s = tab.stages;
         self.settings.linear = model.is_linear();
-        self.attempt_dt = dt;
         if !self.g0_valid || self.g0_time != t {
             self.rates[0] = model.inflow(&conditions.at(t), y, &mut self.g[0]);
             self.g0_valid = true;
@@ -568,17 +564,13 @@ impl Method for Esdirk {
 
     fn candidate_gain(&self) -> [f64; 4] {
         // The dense output's weights (`Tableau::dense`) applied to each stage's total water
-        // inflow: every model holds water as dry mass times moisture, so the water gained is
-        // the mean's change times the dry mass.
+        // inflow (every block's first value): every model holds water as dry mass times
+        // moisture, so the water gained is the mean's change times the dry mass.
         let mut w = [0.0; 4];
         for (row, g) in self.table.dense.iter().zip(&self.g) {
-            let inflow = if self.block == 1 {
-                super::sums::sum(g)
-            } else {
-                g.iter().step_by(self.block).sum()
-            };
+            let inflow: f64 = g.iter().step_by(self.block).sum();
             for (w, d) in w.iter_mut().zip(row) {
-                *w += self.attempt_dt * d * inflow;
+                *w += d * inflow;
             }
         }
         w
@@ -740,8 +732,8 @@ mod tests {
         method
             .attempt(model.as_mut(), &conditions, 0.0, 1800.0, &y)
             .expect("the stage solves converge");
-        let w = method.candidate_gain();
-        let gain = |s: f64| s * (w[0] + s * (w[1] + s * (w[2] + s * w[3])));
+        let (w, dt) = (method.candidate_gain(), 1800.0);
+        let gain = |s: f64| dt * s * (w[0] + s * (w[1] + s * (w[2] + s * w[3])));
         let added = problem.water(&method.candidate().moisture) - problem.water(&y.moisture);
         assert!(added < 0.0, "the slab dries");
         assert!(

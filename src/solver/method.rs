@@ -57,9 +57,9 @@ pub trait Method {
     /// The end state of the last successful attempt.
     fn candidate(&self) -> &State;
 
-    /// The water gained (kg per m2 of face A) from the start of the last successful attempt to
-    /// fraction s of it, by the method's dense output, as the weights w of the polynomial
-    /// sum_k w[k] s^(k+1). It locates a mean-moisture trigger inside the attempt.
+    /// The water gained (kg per m2 of face A) from the start of the last successful attempt,
+    /// of length dt, to fraction s of it, by the method's dense output: dt sum_k w[k] s^(k+1),
+    /// with the weights w returned. It locates a mean-moisture trigger inside the attempt.
     fn candidate_gain(&self) -> [f64; 4];
 
     /// Swaps the candidate with `state` (the stepper accepts the step of `dt` that ends at

@@ -359,7 +359,6 @@ impl<'p> Stepper<'p> {
     pub fn set_schedule_step(&mut self, index: usize, start: f64) {
         self.step_index = index.min(self.problem.steps.len().saturating_sub(1));
         self.step_start = start;
-        self.steady = None;
         self.steady = self.scheduled().steady_conditions();
         self.method.restart();
         self.model.invalidate_jacobian();
@@ -580,39 +579,14 @@ impl<'p> Stepper<'p> {
     /// the ends and the end slope took three trials).
     fn interpolated_crossing(&self, before: f64, level: f64, dt: f64) -> Option<f64> {
         let w = self.method.candidate_gain();
-        let per_mass = 1.0 / self.problem.total_dry_mass();
+        let dt_per_mass = dt / self.problem.total_dry_mass();
         let f =
-            |s: f64| before - level + per_mass * s * (w[0] + s * (w[1] + s * (w[2] + s * w[3])));
-        let df = |s: f64| per_mass * (w[0] + s * (2.0 * w[1] + s * (3.0 * w[2] + s * 4.0 * w[3])));
-        let (mut lo, mut hi) = (0.0, 1.0);
-        let (f_lo, f_hi) = (f(lo), f(hi));
+            |s: f64| before - level + dt_per_mass * s * (w[0] + s * (w[1] + s * (w[2] + s * w[3])));
+        let (f_lo, f_hi) = (f(0.0), f(1.0));
         if !(f_lo.signum() != f_hi.signum() && f_lo.is_finite() && f_hi.is_finite()) {
             return None;
         }
-        // Newton's method kept inside the bracket (bisection where it would leave it).
-        let mut s = f_lo / (f_lo - f_hi);
-        for _ in 0..50 {
-            let v = f(s);
-            if v == 0.0 {
-                break;
-            }
-            if v.signum() == f_lo.signum() {
-                lo = s;
-            } else {
-                hi = s;
-            }
-            let next = s - v / df(s);
-            let next = if next > lo && next < hi {
-                next
-            } else {
-                0.5 * (lo + hi)
-            };
-            if (next - s).abs() <= 1e-15 {
-                s = next;
-                break;
-            }
-            s = next;
-        }
+        let s = crate::analytic::brent(f, 0.0, 1.0, f_lo);
         (s > 0.0 && s < 1.0).then_some(s * dt)
     }
 
